@@ -1,0 +1,13 @@
+//! quarry: premise retrieval for Lean 4 and Coq/Rocq libraries.
+//!
+//! The data flows one way, one folder per arrow:
+//!
+//! ```text
+//! sources ──extract──▶ library model ──build──▶ index ──▶ ranked premises ──▶ CLI · HTTP · eval
+//! ```
+//!
+//! - [`extract`] reads `.lean` and `.v` files into the [`library`] model;
+//! - [`library`] is the model (declarations, modules, dependency graph) and its on-disk form.
+
+pub mod extract;
+pub mod library;

@@ -1,0 +1,1 @@
+//! On-disk form of the library model (being written).
