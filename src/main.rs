@@ -1,1 +1,7 @@
-fn main() {}
+//! The `quarry` command: a thin shell over the library (see `cli/`).
+
+mod cli;
+
+fn main() -> std::process::ExitCode {
+    cli::run()
+}

@@ -1,0 +1,128 @@
+//! `quarry build`: extract a library and write an index generation.
+
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+use std::process::ExitCode;
+use std::time::Instant;
+
+use anyhow::Context;
+use clap::Args;
+use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
+use quarry::library::{store, Library, Severity};
+
+/// Arguments of `quarry build`.
+#[derive(Args, Debug)]
+pub struct BuildArgs {
+    /// Root folders of the library (Lean: the folder module paths start from; Coq: with
+    /// `_CoqProject` or `--coq-prefix`).
+    #[arg(required = true, value_name = "LIBRARY_ROOT")]
+    roots: Vec<PathBuf>,
+    /// The index folder to write (a new generation replaces the live one atomically).
+    #[arg(long, value_name = "INDEX_DIR")]
+    out: PathBuf,
+    /// A Coq logical prefix, `Name=DIR` (like `-R DIR Name`); repeatable.
+    #[arg(long = "coq-prefix", value_name = "NAME=DIR", value_parser = parse_prefix)]
+    coq_prefixes: Vec<CoqPrefix>,
+    /// Worker threads (default: one per core).
+    #[arg(long)]
+    threads: Option<usize>,
+    /// Print only errors.
+    #[arg(long, short)]
+    quiet: bool,
+}
+
+fn parse_prefix(s: &str) -> Result<CoqPrefix, String> {
+    CoqPrefix::parse(s)
+}
+
+/// How many diagnostics `build` prints before summarising the rest.
+const SHOWN_DIAGNOSTICS: usize = 20;
+
+/// Prints the library's diagnostics (up to a limit) to stderr.
+fn report_diagnostics(library: &Library) {
+    let mut shown = 0;
+    let mut total = 0;
+    for f in &library.files {
+        for d in &f.diagnostics {
+            total += 1;
+            if shown < SHOWN_DIAGNOSTICS {
+                let level = match d.severity {
+                    Severity::Error => "skipped",
+                    Severity::Warning => "warning",
+                };
+                eprintln!("{level}: {}:{}:{}: {}", f.path, d.line, d.column, d.message);
+                shown += 1;
+            }
+        }
+    }
+    if total > shown {
+        eprintln!(
+            "... and {} more; `quarry inspect INDEX_DIR --json` lists them all",
+            total - shown
+        );
+    }
+}
+
+/// Runs `quarry build`.
+pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
+    if args.threads == Some(0) {
+        anyhow::bail!("--threads must be at least 1");
+    }
+    let started = Instant::now();
+    let opts = BuildOptions {
+        roots: args.roots.clone(),
+        coq_prefixes: args.coq_prefixes.clone(),
+        threads: args.threads,
+        progress: !args.quiet && super::stderr_is_terminal(),
+    };
+    let library = match build_library(&opts) {
+        Ok(l) => l,
+        Err(WalkError::NothingReadable(n, library)) => {
+            report_diagnostics(&library);
+            anyhow::bail!("none of the {n} source files could be read; no index written");
+        }
+        Err(e) => return Err(e).context("cannot build the library"),
+    };
+    if !args.quiet {
+        report_diagnostics(&library);
+    }
+    let extracted = started.elapsed();
+    let mut settings = BTreeMap::new();
+    settings.insert(
+        "roots".to_string(),
+        serde_json::json!(library.roots.clone()),
+    );
+    settings.insert(
+        "coq_prefixes".to_string(),
+        serde_json::json!(args
+            .coq_prefixes
+            .iter()
+            .map(|p| format!("{}={}", p.logical, p.dir.display()))
+            .collect::<Vec<_>>()),
+    );
+    let gen = store::save_library(&args.out, &library, settings)
+        .with_context(|| format!("cannot write the index to `{}`", args.out.display()))?;
+    if !args.quiet {
+        let counts = store::Counts::of(&library);
+        let skipped = counts.files_with_errors;
+        println!(
+            "indexed {} files ({} skipped, {} with warnings): {} declarations, {} proof edges, \
+             {} statement edges; {} references unresolved, {} ambiguous",
+            counts.files,
+            skipped,
+            counts.files_with_warnings,
+            counts.declarations,
+            counts.proof_edges,
+            counts.statement_edges,
+            counts.references_unresolved,
+            counts.references_ambiguous,
+        );
+        println!(
+            "extracted in {:.2} s, written in {:.2} s to {}",
+            extracted.as_secs_f64(),
+            (started.elapsed() - extracted).as_secs_f64(),
+            super::display_path(&gen)
+        );
+    }
+    Ok(ExitCode::SUCCESS)
+}

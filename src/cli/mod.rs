@@ -1,0 +1,71 @@
+//! The command line: parses arguments with clap and calls the library.
+//!
+//! Takes `std::env::args`; gives output on stdout, diagnostics on stderr, and an exit code.
+//! It holds no extraction, ranking or storage logic of its own: each subcommand is a few
+//! calls into the library.
+//!
+//! Exit codes (documented in README.md): 0 success; 1 failure (unreadable index, I/O,
+//! nothing could be read); 2 usage error; 4 the named declaration does not exist.
+
+mod build;
+mod inspect;
+
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// Exit code for a failure the user can act on (bad index, unreadable library, I/O).
+pub const EXIT_FAILURE: u8 = 1;
+/// Exit code for a declaration name that is not in the index.
+pub const EXIT_NOT_FOUND: u8 = 4;
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "quarry",
+    version,
+    about = "Find the premises that close or advance a goal, in Lean 4 and Coq/Rocq libraries"
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Extract a library's sources into an index folder.
+    Build(build::BuildArgs),
+    /// Print an index's counts, one declaration, or every declaration as JSON lines.
+    Inspect(inspect::InspectArgs),
+}
+
+/// Parses the command line and runs the subcommand.
+pub fn run() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Build(args) => build::run(args),
+        Command::Inspect(args) => inspect::run(args),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            ExitCode::from(EXIT_FAILURE)
+        }
+    }
+}
+
+/// Whether stderr is an interactive terminal (progress bars only then).
+pub fn stderr_is_terminal() -> bool {
+    std::io::stderr().is_terminal()
+}
+
+/// Shortens a path for messages: relative to the current folder when inside it.
+pub fn display_path(path: &std::path::Path) -> String {
+    let cwd = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    path.strip_prefix(&cwd)
+        .unwrap_or(path)
+        .display()
+        .to_string()
+}
