@@ -1,0 +1,538 @@
+//! The lexical signal's index: one tantivy document per declaration, BM25 over quarry's
+//! math-aware tokens.
+//!
+//! Takes the library model and a tokenizer function (the shared tokenizer, which the caller
+//! builds with the library's own notations); gives a tantivy index in the generation folder
+//! (`lexical/`) and, opened, BM25 search restricted to the premises a [`PremiseFilter`]
+//! allows. The tokenizer is registered with tantivy under the name `quarry`, so indexing and
+//! querying see the same tokens. It does not parse goals nor fuse signals.
+//!
+//! Fields: `name` (the declaration's name without its module prefix), `conclusion`,
+//! `hypotheses`, `text` (name and whole statement: one plain BM25 field, used to check the
+//! formula against reference implementations), `kind` (raw), and `id` (the declaration id,
+//! a fast field).
+
+use std::path::Path;
+use std::sync::Arc;
+
+use tantivy::collector::{FilterCollector, TopDocs};
+use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
+use tantivy::schema::{
+    Field, IndexRecordOption, Schema, TextFieldIndexing, TextOptions, Value, FAST, STORED,
+    STRING,
+};
+use tantivy::tokenizer::{Token, TokenStream, Tokenizer};
+use tantivy::{doc, Index, IndexReader, ReloadPolicy, TantivyDocument, Term};
+
+use crate::library::{DeclId, Library};
+use crate::retrieve::accessible::PremiseFilter;
+
+/// The name under which quarry's tokenizer is registered with tantivy.
+pub const TOKENIZER_NAME: &str = "quarry";
+/// The folder of the lexical index inside a generation.
+pub const LEXICAL_PART: &str = "lexical";
+
+/// Splits text into quarry's tokens (already lower-cased), appending to the vector.
+pub type TokenizeFn = Arc<dyn Fn(&str, &mut Vec<String>) + Send + Sync>;
+
+/// Why the lexical index could not be built, opened or searched.
+#[derive(Debug, thiserror::Error)]
+pub enum LexicalError {
+    #[error("lexical index `{path}`: {source}")]
+    Tantivy {
+        path: String,
+        #[source]
+        source: tantivy::TantivyError,
+    },
+    #[error("lexical index `{path}`: {message}")]
+    Invalid { path: String, message: String },
+}
+
+/// quarry's tokenizer as tantivy sees it.
+#[derive(Clone)]
+struct TantivyAdapter {
+    tokenize: TokenizeFn,
+}
+
+struct AdapterStream {
+    tokens: Vec<String>,
+    next: usize,
+    token: Token,
+}
+
+impl TokenStream for AdapterStream {
+    fn advance(&mut self) -> bool {
+        if self.next >= self.tokens.len() {
+            return false;
+        }
+        self.token.text.clear();
+        self.token.text.push_str(&self.tokens[self.next]);
+        self.token.position = self.next;
+        self.token.position_length = 1;
+        self.next += 1;
+        true
+    }
+
+    fn token(&self) -> &Token {
+        &self.token
+    }
+
+    fn token_mut(&mut self) -> &mut Token {
+        &mut self.token
+    }
+}
+
+impl Tokenizer for TantivyAdapter {
+    type TokenStream<'a> = AdapterStream;
+
+    fn token_stream<'a>(&'a mut self, text: &'a str) -> AdapterStream {
+        let mut tokens = Vec::new();
+        (self.tokenize)(text, &mut tokens);
+        AdapterStream {
+            tokens,
+            next: 0,
+            token: Token::default(),
+        }
+    }
+}
+
+/// The fields of the schema.
+#[derive(Clone, Copy, Debug)]
+pub struct LexicalFields {
+    pub id: Field,
+    pub name: Field,
+    pub conclusion: Field,
+    pub hypotheses: Field,
+    pub text: Field,
+    pub kind: Field,
+}
+
+/// Which field a query term is matched in.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LexicalField {
+    Name,
+    Conclusion,
+    Hypotheses,
+    Text,
+}
+
+/// Per-field boosts of the lexical query.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct FieldBoosts {
+    pub name: f32,
+    pub conclusion: f32,
+    pub hypotheses: f32,
+    pub text: f32,
+}
+
+impl Default for FieldBoosts {
+    /// Chosen on the validation part of the Coq standard library (docs/evaluation.md).
+    fn default() -> FieldBoosts {
+        FieldBoosts {
+            name: 1.0,
+            conclusion: 1.0,
+            hypotheses: 0.5,
+            text: 0.5,
+        }
+    }
+}
+
+impl FieldBoosts {
+    /// Only the plain `text` field: textbook single-field BM25.
+    pub fn text_only() -> FieldBoosts {
+        FieldBoosts {
+            name: 0.0,
+            conclusion: 0.0,
+            hypotheses: 0.0,
+            text: 1.0,
+        }
+    }
+}
+
+fn schema() -> (Schema, LexicalFields) {
+    let mut b = Schema::builder();
+    let indexed = TextOptions::default().set_indexing_options(
+        TextFieldIndexing::default()
+            .set_tokenizer(TOKENIZER_NAME)
+            .set_index_option(IndexRecordOption::WithFreqs),
+    );
+    let fields = LexicalFields {
+        id: b.add_u64_field("id", FAST | STORED),
+        name: b.add_text_field("name", indexed.clone()),
+        conclusion: b.add_text_field("conclusion", indexed.clone()),
+        hypotheses: b.add_text_field("hypotheses", indexed.clone()),
+        text: b.add_text_field("text", indexed),
+        kind: b.add_text_field("kind", STRING),
+    };
+    (b.build(), fields)
+}
+
+/// The name of a declaration without its module prefix (Coq names carry it; Lean's do not).
+pub fn local_name<'a>(library: &'a Library, id: DeclId) -> &'a str {
+    let d = library.declaration(id);
+    let module = &library.module(d.module).name;
+    d.name
+        .strip_prefix(module.as_str())
+        .and_then(|rest| rest.strip_prefix('.'))
+        .unwrap_or(&d.name)
+}
+
+/// The hypotheses of a declaration as one text.
+pub fn hypotheses_text(library: &Library, id: DeclId) -> String {
+    let d = library.declaration(id);
+    let mut out = String::new();
+    for h in &d.hypotheses {
+        out.push_str(&h.ty);
+        out.push('\n');
+    }
+    out
+}
+
+/// The conclusion of a declaration, or its statement when the syntax gave none.
+pub fn conclusion_text(library: &Library, id: DeclId) -> &str {
+    let d = library.declaration(id);
+    d.conclusion.as_deref().unwrap_or(&d.statement)
+}
+
+fn tantivy_err(path: &Path) -> impl FnOnce(tantivy::TantivyError) -> LexicalError + '_ {
+    move |source| LexicalError::Tantivy {
+        path: path.display().to_string(),
+        source,
+    }
+}
+
+/// Builds the lexical index of `library` into the folder `dir` (created, must be empty).
+pub fn build(library: &Library, tokenize: TokenizeFn, dir: &Path) -> Result<(), LexicalError> {
+    std::fs::create_dir_all(dir).map_err(|e| LexicalError::Invalid {
+        path: dir.display().to_string(),
+        message: format!("cannot create: {e}"),
+    })?;
+    let (schema, f) = schema();
+    let index = Index::create_in_dir(dir, schema).map_err(tantivy_err(dir))?;
+    index
+        .tokenizers()
+        .register(TOKENIZER_NAME, TantivyAdapter { tokenize });
+    let mut writer: tantivy::IndexWriter = index
+        .writer_with_num_threads(1, 64 << 20)
+        .map_err(tantivy_err(dir))?;
+    for d in &library.declarations {
+        let name = local_name(library, d.id);
+        let text = format!("{name}\n{}", d.statement);
+        writer
+            .add_document(doc!(
+                f.id => d.id.0 as u64,
+                f.name => name,
+                f.conclusion => conclusion_text(library, d.id),
+                f.hypotheses => hypotheses_text(library, d.id),
+                f.text => text,
+                f.kind => d.kind.as_str(),
+            ))
+            .map_err(tantivy_err(dir))?;
+    }
+    writer.commit().map_err(tantivy_err(dir))?;
+    writer.wait_merging_threads().map_err(tantivy_err(dir))?;
+    Ok(())
+}
+
+/// One weighted query term.
+#[derive(Clone, Debug, PartialEq)]
+pub struct QueryTerm {
+    pub token: String,
+    pub weight: f32,
+}
+
+/// An opened lexical index, ready to search.
+pub struct LexicalIndex {
+    reader: IndexReader,
+    fields: LexicalFields,
+    /// Per segment: tantivy doc id → declaration id.
+    doc_to_decl: Vec<Vec<u32>>,
+    path: String,
+}
+
+impl LexicalIndex {
+    /// Opens the lexical index in `dir`, registering `tokenize` as its tokenizer.
+    pub fn open(dir: &Path, tokenize: TokenizeFn, declarations: usize) -> Result<Self, LexicalError> {
+        let index = Index::open_in_dir(dir).map_err(tantivy_err(dir))?;
+        index
+            .tokenizers()
+            .register(TOKENIZER_NAME, TantivyAdapter { tokenize });
+        let (_, fields) = schema();
+        let reader = index
+            .reader_builder()
+            .reload_policy(ReloadPolicy::Manual)
+            .try_into()
+            .map_err(tantivy_err(dir))?;
+        let searcher = reader.searcher();
+        let mut doc_to_decl = Vec::new();
+        let mut total = 0usize;
+        for seg in searcher.segment_readers() {
+            let col = seg.fast_fields().u64("id").map_err(tantivy_err(dir))?;
+            let mut ids = Vec::with_capacity(seg.max_doc() as usize);
+            for doc in 0..seg.max_doc() {
+                let id = col.first(doc).unwrap_or(u64::MAX);
+                if id >= declarations as u64 {
+                    return Err(LexicalError::Invalid {
+                        path: dir.display().to_string(),
+                        message: format!(
+                            "document {doc} names declaration {id}, the library has {declarations}"
+                        ),
+                    });
+                }
+                ids.push(id as u32);
+            }
+            total += ids.len();
+            doc_to_decl.push(ids);
+        }
+        if total != declarations {
+            return Err(LexicalError::Invalid {
+                path: dir.display().to_string(),
+                message: format!(
+                    "holds {total} documents, the library has {declarations} declarations"
+                ),
+            });
+        }
+        Ok(LexicalIndex {
+            reader,
+            fields,
+            doc_to_decl,
+            path: dir.display().to_string(),
+        })
+    }
+
+    fn field(&self, f: LexicalField) -> Field {
+        match f {
+            LexicalField::Name => self.fields.name,
+            LexicalField::Conclusion => self.fields.conclusion,
+            LexicalField::Hypotheses => self.fields.hypotheses,
+            LexicalField::Text => self.fields.text,
+        }
+    }
+
+    /// The BM25 top `limit` declarations for `terms`, among those `filter` allows, best
+    /// first, with their scores. Terms are matched in every field with a non-zero boost.
+    pub fn search(
+        &self,
+        terms: &[QueryTerm],
+        boosts: &FieldBoosts,
+        filter: Option<Arc<PremiseFilter>>,
+        limit: usize,
+    ) -> Result<Vec<(DeclId, f32)>, LexicalError> {
+        let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
+        for (field, boost) in [
+            (LexicalField::Name, boosts.name),
+            (LexicalField::Conclusion, boosts.conclusion),
+            (LexicalField::Hypotheses, boosts.hypotheses),
+            (LexicalField::Text, boosts.text),
+        ] {
+            if boost <= 0.0 {
+                continue;
+            }
+            let f = self.field(field);
+            for t in terms {
+                if t.weight <= 0.0 || t.token.is_empty() {
+                    continue;
+                }
+                let q = TermQuery::new(
+                    Term::from_field_text(f, &t.token),
+                    IndexRecordOption::WithFreqs,
+                );
+                clauses.push((Occur::Should, Box::new(BoostQuery::new(Box::new(q), boost * t.weight))));
+            }
+        }
+        if clauses.is_empty() || limit == 0 {
+            return Ok(Vec::new());
+        }
+        let query = BooleanQuery::new(clauses);
+        let searcher = self.reader.searcher();
+        let err = |source| LexicalError::Tantivy {
+            path: self.path.clone(),
+            source,
+        };
+        let hits = match filter {
+            Some(filter) => {
+                let collector = FilterCollector::new(
+                    "id".to_string(),
+                    move |id: u64| filter.contains(DeclId(id as u32)),
+                    TopDocs::with_limit(limit).order_by_score(),
+                );
+                searcher.search(&query, &collector).map_err(err)?
+            }
+            None => searcher
+                .search(&query, &TopDocs::with_limit(limit).order_by_score())
+                .map_err(err)?,
+        };
+        Ok(hits
+            .into_iter()
+            .filter_map(|(score, addr)| {
+                let id = *self
+                    .doc_to_decl
+                    .get(addr.segment_ord as usize)?
+                    .get(addr.doc_id as usize)?;
+                Some((DeclId(id), score))
+            })
+            .collect())
+    }
+
+    /// The stored declaration id of every document (for checks).
+    pub fn document_count(&self) -> usize {
+        self.doc_to_decl.iter().map(Vec::len).sum()
+    }
+
+    /// Reads the stored `id` of the first document, proving the store is readable.
+    pub fn check_store(&self) -> Result<(), LexicalError> {
+        let searcher = self.reader.searcher();
+        if self.document_count() == 0 {
+            return Ok(());
+        }
+        let doc: TantivyDocument = searcher
+            .doc(tantivy::DocAddress::new(0, 0))
+            .map_err(|source| LexicalError::Tantivy {
+                path: self.path.clone(),
+                source,
+            })?;
+        match doc.get_first(self.fields.id).and_then(|v| v.as_u64()) {
+            Some(_) => Ok(()),
+            None => Err(LexicalError::Invalid {
+                path: self.path.clone(),
+                message: "first document has no stored id".into(),
+            }),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::library::{
+        DeclKind, Declaration, FileId, Language, Module, ModuleId, ReferenceCounts, SourceFile,
+        Span, Visibility,
+    };
+
+    /// A one-module library whose declarations are `M.<name>` with the given statements.
+    fn library(decls: &[(&str, &str)]) -> Library {
+        let declarations = decls
+            .iter()
+            .enumerate()
+            .map(|(i, (name, statement))| Declaration {
+                id: DeclId(i as u32),
+                name: format!("M.{name}"),
+                kind: DeclKind::Theorem,
+                statement: statement.to_string(),
+                hypotheses: Vec::new(),
+                conclusion: None,
+                module: ModuleId(0),
+                file: FileId(0),
+                statement_span: Span::default(),
+                proof_span: None,
+                proof_ending: None,
+                visibility: Visibility::Public,
+                attributes: Vec::new(),
+                notation: None,
+                references: ReferenceCounts::default(),
+                unresolved_names: Vec::new(),
+            })
+            .collect();
+        Library {
+            roots: vec!["/lib".into()],
+            files: vec![SourceFile {
+                id: FileId(0),
+                path: "M.v".into(),
+                root: 0,
+                language: Language::Coq,
+                module: Some(ModuleId(0)),
+                content_hash: String::new(),
+                bytes: 0,
+                diagnostics: Vec::new(),
+                references: ReferenceCounts::default(),
+            }],
+            modules: vec![Module {
+                id: ModuleId(0),
+                name: "M".into(),
+                file: FileId(0),
+                imports: Vec::new(),
+            }],
+            declarations,
+            graph: Default::default(),
+        }
+    }
+
+    fn whitespace() -> TokenizeFn {
+        Arc::new(|text: &str, out: &mut Vec<String>| {
+            out.extend(text.split_whitespace().map(str::to_lowercase))
+        })
+    }
+
+    fn term(t: &str) -> QueryTerm {
+        QueryTerm {
+            token: t.into(),
+            weight: 1.0,
+        }
+    }
+
+    /// BM25 as in Robertson & Zaragoza, "The Probabilistic Relevance Framework: BM25 and
+    /// Beyond" (2009), eq. 3.15 with the idf of eq. 3.3 in its non-negative form
+    /// ln(1 + (N - n + 0.5)/(n + 0.5)) (the form Lucene and tantivy use), k1 = 1.2, b = 0.75:
+    ///   score(q, d) = Σ_t idf(t) · (k1 + 1) · tf / (tf + k1 · (1 - b + b · dl / avgdl)).
+    /// Worked by hand on three documents (the `text` field holds the name, then the
+    /// statement, split on white space):
+    ///   d1: [d1 push slot full]   dl 4
+    ///   d2: [d2 push push empty]  dl 4
+    ///   d3: [d3 pop slot]         dl 3        N = 3, avgdl = 11/3 = 3.6667
+    /// `push` and `slot` each occur in 2 documents: idf = ln(1 + 1.5/2.5) = ln 1.6 = 0.470004.
+    ///   dl 4: K = 1.2 · (0.25 + 0.75 · 4/3.6667) = 1.281818
+    ///   dl 3: K = 1.2 · (0.25 + 0.75 · 3/3.6667) = 1.036364
+    ///   push in d1 (tf 1): 0.470004 · 2.2 · 1/2.281818 = 0.453147
+    ///   push in d2 (tf 2): 0.470004 · 2.2 · 2/3.281818 = 0.630140
+    ///   slot in d3 (tf 1): 0.470004 · 2.2 · 1/2.036364 = 0.507767
+    /// so for the query `push slot`: d1 = 0.906294, d2 = 0.630140, d3 = 0.507767.
+    #[test]
+    fn bm25_matches_the_hand_worked_example() {
+        let lib = library(&[
+            ("d1", "push slot full"),
+            ("d2", "push push empty"),
+            ("d3", "pop slot"),
+        ]);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), 3).unwrap();
+        let boosts = FieldBoosts::text_only();
+
+        let hits = idx.search(&[term("push"), term("slot")], &boosts, None, 10).unwrap();
+        let expected = [(0u32, 0.906294f32), (1, 0.630140), (2, 0.507767)];
+        assert_eq!(hits.len(), 3);
+        for ((id, score), (eid, escore)) in hits.iter().zip(expected) {
+            assert_eq!(id.0, eid);
+            assert!((score - escore).abs() < 1e-4, "doc {eid}: {score} vs {escore}");
+        }
+        // A shorter document wins at equal term frequency (length normalisation).
+        let slot = idx.search(&[term("slot")], &boosts, None, 10).unwrap();
+        assert_eq!(slot[0].0, DeclId(2));
+        assert!((slot[0].1 - 0.507767).abs() < 1e-4);
+        assert!((slot[1].1 - 0.453147).abs() < 1e-4);
+    }
+
+    #[test]
+    fn the_filter_limits_the_answers_and_empty_queries_return_nothing() {
+        let lib = library(&[("d1", "push slot"), ("d2", "push"), ("d3", "pop")]);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), 3).unwrap();
+        let mut only_d2 = PremiseFilter::none(3);
+        only_d2.insert(DeclId(1));
+        let hits = idx
+            .search(&[term("push")], &FieldBoosts::default(), Some(Arc::new(only_d2)), 10)
+            .unwrap();
+        assert_eq!(hits.iter().map(|h| h.0).collect::<Vec<_>>(), vec![DeclId(1)]);
+        assert!(idx.search(&[], &FieldBoosts::default(), None, 10).unwrap().is_empty());
+        assert!(idx
+            .search(&[term("absent")], &FieldBoosts::default(), None, 10)
+            .unwrap()
+            .is_empty());
+        // Opening against a library of another size is refused.
+        assert!(LexicalIndex::open(&path, whitespace(), 4).is_err());
+    }
+}
