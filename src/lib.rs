@@ -11,3 +11,4 @@
 
 pub mod extract;
 pub mod library;
+pub mod server;

@@ -9,6 +9,10 @@
 
 mod build;
 mod inspect;
+// `ask --server` calls it (ask.rs).
+#[allow(dead_code)]
+mod remote;
+mod serve;
 
 use std::io::IsTerminal;
 use std::path::PathBuf;
@@ -38,6 +42,8 @@ enum Command {
     Build(build::BuildArgs),
     /// Print an index's counts, one declaration, or every declaration as JSON lines.
     Inspect(inspect::InspectArgs),
+    /// Answer ranking requests over HTTP (JSON API under /v1; docs/api.md).
+    Serve(serve::ServeArgs),
 }
 
 /// Parses the command line and runs the subcommand.
@@ -46,6 +52,7 @@ pub fn run() -> ExitCode {
     let result = match cli.command {
         Command::Build(args) => build::run(args),
         Command::Inspect(args) => inspect::run(args),
+        Command::Serve(args) => serve::run(args),
     };
     match result {
         Ok(code) => code,

@@ -1,0 +1,744 @@
+//! `quarry serve` end to end: the real binary on an ephemeral loopback port, driven over HTTP.
+//! Each endpoint, each error one by one, 200 concurrent requests, a reload under load, a
+//! corrupt index refused, graceful shutdown, authentication and CORS. Every answer checked
+//! for shape is validated against docs/openapi.yaml with a JSON Schema 2020-12 validator
+//! (the `jsonschema` crate), and statuses follow RFC 9110's meanings (section 15).
+//! Loops are bounded in count and time; only 127.0.0.1 is ever contacted.
+
+#[path = "support/server.rs"]
+mod support;
+
+use std::io::{Read, Write};
+use std::net::TcpStream;
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::{Arc, Barrier};
+use std::time::{Duration, Instant};
+
+use support::*;
+
+const GOAL: &str = "t : task\nq : queue\n⊢ size (push t q) = S (size q)";
+
+fn rank_body(goal: &str) -> String {
+    serde_json::json!({ "goal": goal, "limit": 5 }).to_string()
+}
+
+/// Sends a request head announcing `length` body bytes and the first `sent` of `body`,
+/// leaving the request unfinished; returns the open connection.
+fn start_unfinished(base: &str, body: &str, sent: usize) -> TcpStream {
+    let addr = base.trim_start_matches("http://");
+    let mut s = TcpStream::connect(addr).unwrap();
+    s.set_read_timeout(Some(Duration::from_secs(20))).unwrap();
+    let head = format!(
+        "POST /v1/rank HTTP/1.1\r\nHost: {addr}\r\nContent-Type: application/json\r\nContent-Length: {}\r\n\r\n",
+        body.len()
+    );
+    s.write_all(head.as_bytes()).unwrap();
+    s.write_all(&body.as_bytes()[..sent]).unwrap();
+    s.flush().unwrap();
+    s
+}
+
+/// Reads a whole HTTP/1.1 response (the server closes or sends Content-Length bytes).
+fn read_response(s: &mut TcpStream) -> (u16, String) {
+    let mut raw = Vec::new();
+    let mut buf = [0u8; 8192];
+    loop {
+        match s.read(&mut buf) {
+            Ok(0) => break,
+            Ok(n) => {
+                raw.extend_from_slice(&buf[..n]);
+                let text = String::from_utf8_lossy(&raw).to_string();
+                if let Some(end) = text.find("\r\n\r\n") {
+                    let len = text[..end]
+                        .lines()
+                        .find_map(|l| {
+                            l.to_ascii_lowercase()
+                                .strip_prefix("content-length:")
+                                .map(|v| v.trim().parse::<usize>().unwrap())
+                        })
+                        .unwrap_or(0);
+                    if raw.len() >= end + 4 + len {
+                        break;
+                    }
+                }
+            }
+            Err(e) => panic!("reading the response: {e}"),
+        }
+    }
+    let text = String::from_utf8_lossy(&raw).to_string();
+    let status = text
+        .split(' ')
+        .nth(1)
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(0);
+    let body = text
+        .split_once("\r\n\r\n")
+        .map(|(_, b)| b.to_string())
+        .unwrap_or_default();
+    (status, body)
+}
+
+#[test]
+fn rank_answers_with_premises_the_parsed_goal_and_the_index_identity() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &[]);
+    let agent = client();
+    let doc = openapi();
+
+    let a = post_json(
+        &agent,
+        &server.url("/v1/rank"),
+        &serde_json::json!({ "goal": GOAL, "limit": 3, "explain": true }).to_string(),
+    );
+    assert_eq!(a.status, 200, "{}", a.text);
+    assert!(a.content_type.starts_with("application/json"));
+    assert_matches_schema(&doc, "RankResponse", &a.json);
+    let premises = a.json["premises"].as_array().unwrap();
+    assert!(!premises.is_empty() && premises.len() <= 3, "{}", a.text);
+    // The goal states `size_push` itself; a lexical ranking must put it among the first three.
+    assert!(
+        premises
+            .iter()
+            .any(|p| p["name"] == "Sched.Queue.size_push"),
+        "{}",
+        a.text
+    );
+    for p in premises {
+        assert!(p["file"].as_str().unwrap().ends_with(".v"));
+        assert!(p["line"].as_u64().unwrap() >= 1);
+        assert!(p.get("matched_terms").is_some(), "explain was asked: {p}");
+    }
+    assert!(a.json["goal"]["conclusion"]
+        .as_str()
+        .unwrap()
+        .contains("size (push t q)"));
+    let status = get(&agent, &server.url("/v1/status"));
+    assert_eq!(
+        a.json["index"]["build_id"],
+        status.json["index"]["build_id"]
+    );
+
+    // From inside Policy.v, only what Policy.v can see before the cursor is offered; the
+    // file is named by its indexed path, never opened.
+    let a = post_json(
+        &agent,
+        &server.url("/v1/rank"),
+        &serde_json::json!({ "goal": "pick (push t q) = Some t", "file": "theories/Policy.v", "line": 11, "kinds": ["theorem"] }).to_string(),
+    );
+    assert_eq!(a.status, 200, "{}", a.text);
+    for p in a.json["premises"].as_array().unwrap() {
+        assert_eq!(p["kind"], "theorem");
+        assert_ne!(
+            p["name"], "Sched.Policy.pick_push",
+            "the lemma being proved is not offered"
+        );
+        assert_ne!(
+            p["name"], "Sched.Policy.pick_none_is_empty",
+            "a later lemma is not offered"
+        );
+    }
+}
+
+#[test]
+fn batch_declarations_status_health_and_metrics() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &[]);
+    let agent = client();
+    let doc = openapi();
+
+    let a = post_json(
+        &agent,
+        &server.url("/v1/rank/batch"),
+        &serde_json::json!({ "items": [
+            { "goal": GOAL },
+            { "goal": "pick (push t q) = Some t", "limit": 1 },
+            { "goal": "  \n " },
+        ]})
+        .to_string(),
+    );
+    assert_eq!(a.status, 200, "{}", a.text);
+    assert_matches_schema(&doc, "BatchResponse", &a.json);
+    let results = a.json["results"].as_array().unwrap();
+    assert_eq!(results.len(), 3);
+    assert_eq!(results[0]["status"], 200);
+    assert_eq!(
+        results[1]["ranking"]["premises"].as_array().unwrap().len(),
+        1
+    );
+    assert_eq!(results[2]["status"], 422);
+    assert_eq!(results[2]["error"]["code"], "goal_empty");
+
+    let items: Vec<_> = (0..65)
+        .map(|_| serde_json::json!({ "goal": GOAL }))
+        .collect();
+    let a = post_json(
+        &agent,
+        &server.url("/v1/rank/batch"),
+        &serde_json::json!({ "items": items }).to_string(),
+    );
+    assert_eq!(
+        (a.status, a.json["error"]["code"].as_str()),
+        (400, Some("batch_size"))
+    );
+
+    let a = get(
+        &agent,
+        &server.url("/v1/declarations/Sched.Queue.size_push_positive"),
+    );
+    assert_eq!(a.status, 200, "{}", a.text);
+    assert_matches_schema(&doc, "DeclarationResponse", &a.json);
+    let premises: Vec<&str> = a.json["premises"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|p| p["name"].as_str().unwrap())
+        .collect();
+    assert!(premises.contains(&"Sched.Queue.size_push"), "{premises:?}");
+    // A unique partial name finds the same declaration.
+    let b = get(&agent, &server.url("/v1/declarations/size_push_positive"));
+    assert_eq!(
+        b.json["declaration"]["name"],
+        "Sched.Queue.size_push_positive"
+    );
+    let b = get(&agent, &server.url("/v1/declarations/Queue.size_push"));
+    let dependents: Vec<&str> = b.json["dependents"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|p| p["name"].as_str().unwrap())
+        .collect();
+    assert!(
+        dependents.contains(&"Sched.Queue.size_push_positive"),
+        "{}",
+        b.text
+    );
+
+    let a = get(&agent, &server.url("/v1/status"));
+    assert_eq!(a.status, 200);
+    assert_matches_schema(&doc, "StatusResponse", &a.json);
+    assert_eq!(a.json["quarry_version"], env!("CARGO_PKG_VERSION"));
+    assert!(a.json["index"]["counts"]["declarations"].as_u64().unwrap() >= 8);
+
+    let a = get(&agent, &server.url("/healthz"));
+    assert_eq!((a.status, a.json["status"].as_str()), (200, Some("alive")));
+    assert_matches_schema(&doc, "HealthResponse", &a.json);
+    let a = get(&agent, &server.url("/readyz"));
+    assert_eq!((a.status, a.json["status"].as_str()), (200, Some("ready")));
+
+    let a = get(&agent, &server.url("/metrics"));
+    assert_eq!(a.status, 200);
+    // Prometheus text exposition format 0.0.4 is served as text/plain; version=0.0.4.
+    assert!(
+        a.content_type.starts_with("text/plain"),
+        "{}",
+        a.content_type
+    );
+    assert!(
+        a.text.contains(
+            "quarry_http_requests_total{route=\"/v1/rank/batch\",method=\"POST\",status=\"200\"} 1"
+        ),
+        "{}",
+        a.text
+    );
+    assert!(
+        a.text.contains(
+            "quarry_http_request_duration_seconds_bucket{route=\"/v1/status\",le=\"+Inf\"} 1"
+        ),
+        "{}",
+        a.text
+    );
+    assert!(a.text.contains("quarry_index_declarations "));
+}
+
+#[test]
+fn every_error_has_its_status_code_and_a_json_body() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &["--max-body", "4KiB"]);
+    let agent = client();
+    let doc = openapi();
+    let rank = server.url("/v1/rank");
+    let cases: Vec<(Answer, u16, &str)> = vec![
+        (
+            post_json(&agent, &rank, r#"{"goal": "size q"#),
+            400,
+            "malformed_json",
+        ),
+        (
+            post_json(&agent, &rank, r#"{"limit": 3}"#),
+            400,
+            "missing_field",
+        ),
+        (
+            post_json(&agent, &rank, r#"{"goal": "size q", "limmit": 3}"#),
+            400,
+            "unknown_field",
+        ),
+        (
+            post_json(&agent, &rank, r#"{"goal": "size q", "limit": 500}"#),
+            400,
+            "invalid_field",
+        ),
+        (
+            post_json(&agent, &rank, r#"{"goal": 42}"#),
+            400,
+            "invalid_field",
+        ),
+        (
+            post_json(&agent, &rank, &rank_body(&"size q ".repeat(1000))),
+            413,
+            "body_too_large",
+        ),
+        (
+            {
+                let r = agent
+                    .post(&rank)
+                    .header("Content-Type", "text/plain")
+                    .send(rank_body(GOAL))
+                    .unwrap();
+                answer(r)
+            },
+            415,
+            "unsupported_media_type",
+        ),
+        (
+            post_json(&agent, &rank, &rank_body("   ")),
+            422,
+            "goal_empty",
+        ),
+        (
+            post_json(&agent, &rank, &rank_body("( ) ⊢ , ;")),
+            422,
+            "goal_unparsable",
+        ),
+        (
+            post_json(
+                &agent,
+                &rank,
+                r#"{"goal": "size q", "file": "/etc/passwd"}"#,
+            ),
+            422,
+            "unknown_file",
+        ),
+        (
+            get(
+                &agent,
+                &server.url("/v1/declarations/Sched.Queue.no_such_lemma"),
+            ),
+            404,
+            "unknown_declaration",
+        ),
+        (
+            get(&agent, &server.url("/v1/ranking")),
+            404,
+            "unknown_route",
+        ),
+        (get(&agent, &rank), 405, "method_not_allowed"),
+    ];
+    for (a, status, code) in &cases {
+        assert_eq!(a.status, *status, "{code}: {}", a.text);
+        assert_eq!(a.json["error"]["code"], *code, "{}", a.text);
+        assert!(a.content_type.starts_with("application/json"), "{code}");
+        assert!(a.json["error"]["message"]
+            .as_str()
+            .is_some_and(|m| m.len() > 10));
+        assert_matches_schema(&doc, "ErrorResponse", &a.json);
+    }
+    // The unknown field is named in the message.
+    let unknown = &cases[2].0;
+    assert!(unknown.json["error"]["message"]
+        .as_str()
+        .unwrap()
+        .contains("`limmit`"));
+    // The file named is never opened: the answer is the same for a path that exists on this
+    // machine and one that does not.
+    let missing = post_json(
+        &agent,
+        &rank,
+        r#"{"goal": "size q", "file": "/no/such/file.v"}"#,
+    );
+    assert_eq!(missing.json["error"]["code"], "unknown_file");
+
+    // The server is still whole after all of that.
+    let a = post_json(&agent, &rank, &rank_body(GOAL));
+    assert_eq!(a.status, 200, "{}", a.text);
+}
+
+#[test]
+fn over_the_time_limit_is_504_and_over_the_admission_limit_is_503() {
+    let ix = scheduler_index();
+    let server = Server::start(
+        &ix.index,
+        &["--request-timeout", "700ms", "--max-pending", "1"],
+    );
+    let agent = client();
+    let body = rank_body(GOAL);
+
+    // A request whose body never finishes holds the only admission slot...
+    let mut stalled = start_unfinished(&server.base, &body, 10);
+    std::thread::sleep(Duration::from_millis(150));
+    // ...so another one is refused at once with 503 and Retry-After,
+    let r = agent
+        .post(&server.url("/v1/rank"))
+        .header("Content-Type", "application/json")
+        .send(body.as_str())
+        .unwrap();
+    assert_eq!(
+        r.headers().get("retry-after").and_then(|v| v.to_str().ok()),
+        Some("1")
+    );
+    let a = answer(r);
+    assert_eq!(
+        (a.status, a.json["error"]["code"].as_str()),
+        (503, Some("overloaded")),
+        "{}",
+        a.text
+    );
+    // ...and the stalled one is answered 504 when the time limit passes.
+    let (status, text) = read_response(&mut stalled);
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    assert_eq!(
+        (status, v["error"]["code"].as_str()),
+        (504, Some("timeout")),
+        "{text}"
+    );
+    // Health answers regardless of admission.
+    assert_eq!(get(&agent, &server.url("/healthz")).status, 200);
+    let a = post_json(&agent, &server.url("/v1/rank"), &body);
+    assert_eq!(a.status, 200, "the slot is free again: {}", a.text);
+}
+
+#[test]
+fn two_hundred_concurrent_requests_are_all_answered() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &["--quiet"]);
+    let n = 200;
+    let barrier = Arc::new(Barrier::new(n));
+    let url = server.url("/v1/rank");
+    let handles: Vec<_> = (0..n)
+        .map(|i| {
+            let barrier = barrier.clone();
+            let url = url.clone();
+            std::thread::spawn(move || {
+                let agent = client();
+                let goal = if i % 2 == 0 {
+                    GOAL
+                } else {
+                    "pick q = None -> is_empty q = true"
+                };
+                barrier.wait();
+                let a = post_json(&agent, &url, &rank_body(goal));
+                (a.status, a.text)
+            })
+        })
+        .collect();
+    let mut failed = Vec::new();
+    for h in handles {
+        let (status, text) = h.join().unwrap();
+        if status != 200 {
+            failed.push(format!("{status} {text}"));
+        }
+    }
+    assert!(
+        failed.is_empty(),
+        "{} of {n} failed: {:?}",
+        failed.len(),
+        &failed[..failed.len().min(3)]
+    );
+    let m = get(&client(), &server.url("/metrics"));
+    assert!(
+        m.text.contains(&format!(
+            "quarry_http_requests_total{{route=\"/v1/rank\",method=\"POST\",status=\"200\"}} {n}"
+        )),
+        "{}",
+        m.text
+    );
+}
+
+/// Runs rank requests from `threads` threads until `stop` is set or `limit` passes;
+/// returns (answered 200, failed, build ids seen).
+fn load_loop(
+    url: String,
+    threads: usize,
+    stop: Arc<std::sync::atomic::AtomicBool>,
+    limit: Duration,
+) -> std::thread::JoinHandle<(u64, Vec<String>, std::collections::BTreeSet<String>)> {
+    std::thread::spawn(move || {
+        let ok = Arc::new(AtomicU64::new(0));
+        let workers: Vec<_> = (0..threads)
+            .map(|_| {
+                let (url, stop, ok) = (url.clone(), stop.clone(), ok.clone());
+                std::thread::spawn(move || {
+                    let agent = client();
+                    let started = Instant::now();
+                    let mut failed = Vec::new();
+                    let mut ids = std::collections::BTreeSet::new();
+                    let mut sent = 0;
+                    while !stop.load(Ordering::Relaxed)
+                        && started.elapsed() < limit
+                        && sent < 20_000
+                    {
+                        sent += 1;
+                        let a = post_json(&agent, &url, &rank_body(GOAL));
+                        if a.status == 200 {
+                            ok.fetch_add(1, Ordering::Relaxed);
+                            ids.insert(
+                                a.json["index"]["build_id"]
+                                    .as_str()
+                                    .unwrap_or("")
+                                    .to_string(),
+                            );
+                        } else {
+                            failed.push(format!("{} {}", a.status, a.text));
+                        }
+                    }
+                    (failed, ids)
+                })
+            })
+            .collect();
+        let mut failed = Vec::new();
+        let mut ids = std::collections::BTreeSet::new();
+        for w in workers {
+            let (f, i) = w.join().unwrap();
+            failed.extend(f);
+            ids.extend(i);
+        }
+        (ok.load(Ordering::Relaxed), failed, ids)
+    })
+}
+
+fn build_id(server: &Server) -> String {
+    get(&client(), &server.url("/v1/status")).json["index"]["build_id"]
+        .as_str()
+        .unwrap_or("")
+        .to_string()
+}
+
+#[test]
+fn a_new_build_is_picked_up_under_load_without_a_failed_request() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &["--quiet"]);
+    let before = build_id(&server);
+    let stop = Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let load = load_loop(
+        server.url("/v1/rank"),
+        4,
+        stop.clone(),
+        Duration::from_secs(60),
+    );
+    std::thread::sleep(Duration::from_millis(300));
+
+    let policy = ix.lib.join("theories/Policy.v");
+    std::fs::write(&policy, format!("{POLICY_V}{POLICY_EXTRA}")).unwrap();
+    build(&ix.lib, &ix.index);
+    let swapped = eventually(Duration::from_secs(20), || build_id(&server) != before);
+    std::thread::sleep(Duration::from_millis(300));
+    stop.store(true, Ordering::Relaxed);
+    let (ok, failed, ids) = load.join().unwrap();
+    assert!(
+        swapped,
+        "the server did not pick up the new build; stderr: {}",
+        server.stderr()
+    );
+    assert!(
+        failed.is_empty(),
+        "{} failed during the reload: {:?}",
+        failed.len(),
+        &failed[..failed.len().min(3)]
+    );
+    assert!(ok > 0);
+    let after = build_id(&server);
+    assert!(
+        ids.contains(&before) && ids.contains(&after),
+        "answers came from {ids:?}"
+    );
+    // The new lemma is served.
+    let a = get(
+        &client(),
+        &server.url("/v1/declarations/Sched.Policy.pick_some_size"),
+    );
+    assert_eq!(a.status, 200, "{}", a.text);
+}
+
+#[test]
+fn a_corrupt_index_is_refused_and_the_old_one_keeps_answering() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &[]);
+    let agent = client();
+    let before = build_id(&server);
+
+    // A generation whose manifest is not JSON, made live the way a build does it: the
+    // folder first, then CURRENT replaced by a rename.
+    let broken = ix.index.join("gen-20260101T000000-broken");
+    std::fs::create_dir_all(&broken).unwrap();
+    std::fs::write(
+        broken.join("manifest.json"),
+        b"{\"format\": \"quarry-index\", \"form",
+    )
+    .unwrap();
+    let tmp = ix.index.join(".CURRENT.broken");
+    std::fs::write(&tmp, "gen-20260101T000000-broken\n").unwrap();
+    std::fs::rename(&tmp, ix.index.join("CURRENT")).unwrap();
+
+    let refused = eventually(Duration::from_secs(10), || {
+        get(&agent, &server.url("/v1/status")).json["reload"]["failures"].as_u64() >= Some(1)
+    });
+    assert!(refused, "no refused reload; stderr: {}", server.stderr());
+    let status = get(&agent, &server.url("/v1/status"));
+    assert_eq!(status.json["index"]["build_id"], before.as_str());
+    assert!(status.json["reload"]["last_error"]
+        .as_str()
+        .unwrap()
+        .contains("manifest.json"));
+    let a = post_json(&agent, &server.url("/v1/rank"), &rank_body(GOAL));
+    assert_eq!(a.status, 200, "{}", a.text);
+    assert_eq!(a.json["index"]["build_id"], before.as_str());
+    assert!(
+        server.stderr().contains("refused the new index"),
+        "{}",
+        server.stderr()
+    );
+
+    // A damaged part (a generation copied by hand, truncated) is refused the same way, on SIGHUP.
+    let good_gen = std::fs::read_dir(&ix.index)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .find(|n| n.starts_with("gen-") && !n.contains("broken"))
+        .unwrap();
+    let copy = ix.index.join("gen-20260101T000001-truncated");
+    std::fs::create_dir_all(&copy).unwrap();
+    for e in std::fs::read_dir(ix.index.join(&good_gen))
+        .unwrap()
+        .flatten()
+    {
+        if e.file_type().unwrap().is_file() {
+            std::fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+        }
+    }
+    let lib = copy.join("library.bin");
+    let bytes = std::fs::read(&lib).unwrap();
+    std::fs::write(&lib, &bytes[..bytes.len() / 2]).unwrap();
+    std::fs::write(&tmp, "gen-20260101T000001-truncated\n").unwrap();
+    std::fs::rename(&tmp, ix.index.join("CURRENT")).unwrap();
+    server.signal("HUP");
+    let refused_again = eventually(Duration::from_secs(10), || {
+        get(&agent, &server.url("/v1/status")).json["reload"]["failures"].as_u64() >= Some(2)
+    });
+    assert!(refused_again, "stderr: {}", server.stderr());
+    let a = post_json(&agent, &server.url("/v1/rank"), &rank_body(GOAL));
+    assert_eq!(
+        (a.status, a.json["index"]["build_id"].as_str()),
+        (200, Some(before.as_str()))
+    );
+}
+
+#[test]
+fn sighup_reloads_when_the_watcher_is_off() {
+    let ix = scheduler_index();
+    let server = Server::start(&ix.index, &["--no-watch"]);
+    let before = build_id(&server);
+    std::fs::write(
+        ix.lib.join("theories/Policy.v"),
+        format!("{POLICY_V}{POLICY_EXTRA}"),
+    )
+    .unwrap();
+    build(&ix.lib, &ix.index);
+    std::thread::sleep(Duration::from_millis(500));
+    assert_eq!(build_id(&server), before, "--no-watch still reloaded");
+    server.signal("HUP");
+    assert!(eventually(Duration::from_secs(10), || build_id(&server) != before));
+}
+
+#[test]
+fn sigterm_lets_the_request_in_flight_finish() {
+    let ix = scheduler_index();
+    let mut server = Server::start(&ix.index, &[]);
+    let body = rank_body(GOAL);
+    let mut s = start_unfinished(&server.base, &body, 5);
+    std::thread::sleep(Duration::from_millis(200));
+    server.signal("TERM");
+    std::thread::sleep(Duration::from_millis(300));
+    // New connections are no longer accepted...
+    let refused = TcpStream::connect(server.base.trim_start_matches("http://")).is_err();
+    // ...but the request in flight completes.
+    s.write_all(&body.as_bytes()[5..]).unwrap();
+    let (status, text) = read_response(&mut s);
+    assert_eq!(status, 200, "{text}");
+    drop(s);
+    assert_eq!(
+        server.wait_exit(Duration::from_secs(10)),
+        Some(0),
+        "stderr: {}",
+        server.stderr()
+    );
+    assert!(refused, "the listener was still open after SIGTERM");
+}
+
+#[test]
+fn tokens_are_required_off_loopback_and_never_logged() {
+    let ix = scheduler_index();
+    // Without a token the server refuses to listen on a non-loopback address (it exits
+    // before binding anything).
+    let o = quarry(&["serve", ix.index.to_str().unwrap(), "--listen", "0.0.0.0:0"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--token-file"));
+
+    let token = "sched-queue-token-7f3a9c21";
+    let token_file = ix.tmp.path().join("token");
+    std::fs::write(&token_file, format!("{token}\n")).unwrap();
+    let server = Server::start(&ix.index, &["--token-file", token_file.to_str().unwrap()]);
+    let agent = client();
+    let url = server.url("/v1/rank");
+    let a = post_json(&agent, &url, &rank_body(GOAL));
+    assert_eq!(
+        (a.status, a.json["error"]["code"].as_str()),
+        (401, Some("unauthorized"))
+    );
+    let a = post_json_with_token(&agent, &url, &rank_body(GOAL), "sched-queue-token-7f3a9c22");
+    assert_eq!(a.status, 401);
+    let a = post_json_with_token(&agent, &url, &rank_body(GOAL), token);
+    assert_eq!(a.status, 200, "{}", a.text);
+    assert_eq!(get(&agent, &server.url("/metrics")).status, 401);
+    // Probes need no token.
+    assert_eq!(get(&agent, &server.url("/healthz")).status, 200);
+    assert_eq!(get(&agent, &server.url("/readyz")).status, 200);
+    assert!(!server.stderr().contains(token), "the token was logged");
+    assert!(
+        !server.stderr().contains("7f3a9c22"),
+        "an offered token was logged"
+    );
+}
+
+#[test]
+fn cors_is_off_unless_origins_are_listed() {
+    let ix = scheduler_index();
+    let agent = client();
+    let origin = "http://editor.localhost:5173";
+    let preflight = |server: &Server| {
+        agent
+            .request("OPTIONS", &server.url("/v1/rank"))
+            .header("Origin", origin)
+            .header("Access-Control-Request-Method", "POST")
+            .call()
+            .unwrap()
+    };
+    let plain = Server::start(&ix.index, &[]);
+    let r = preflight(&plain);
+    assert!(r.headers().get("access-control-allow-origin").is_none());
+    let allowed = Server::start(&ix.index, &["--cors-origin", origin]);
+    let r = preflight(&allowed);
+    // Fetch standard, CORS protocol: the preflight answer echoes the allowed origin.
+    assert_eq!(
+        r.headers()
+            .get("access-control-allow-origin")
+            .and_then(|v| v.to_str().ok()),
+        Some(origin)
+    );
+    let r = agent
+        .request("OPTIONS", &allowed.url("/v1/rank"))
+        .header("Origin", "http://elsewhere.localhost")
+        .header("Access-Control-Request-Method", "POST")
+        .call()
+        .unwrap();
+    assert!(r.headers().get("access-control-allow-origin").is_none());
+}
