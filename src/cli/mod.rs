@@ -5,8 +5,10 @@
 //! calls into the library.
 //!
 //! Exit codes (documented in README.md): 0 success; 1 failure (unreadable index, I/O,
-//! nothing could be read); 2 usage error; 4 the named declaration does not exist.
+//! nothing could be read); 2 usage error; 3 the goal cannot be ranked (empty, too large,
+//! nothing to search for); 4 the named declaration does not exist.
 
+mod ask;
 mod build;
 mod inspect;
 // `ask --server` calls it (ask.rs).
@@ -42,6 +44,8 @@ enum Command {
     Build(build::BuildArgs),
     /// Print an index's counts, one declaration, or every declaration as JSON lines.
     Inspect(inspect::InspectArgs),
+    /// Rank the premises of an index for a goal (argument or stdin).
+    Ask(ask::AskArgs),
     /// Answer ranking requests over HTTP (JSON API under /v1; docs/api.md).
     Serve(serve::ServeArgs),
 }
@@ -52,6 +56,7 @@ pub fn run() -> ExitCode {
     let result = match cli.command {
         Command::Build(args) => build::run(args),
         Command::Inspect(args) => inspect::run(args),
+        Command::Ask(args) => ask::run(args),
         Command::Serve(args) => serve::run(args),
     };
     match result {

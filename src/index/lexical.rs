@@ -25,6 +25,7 @@ use tantivy::tokenizer::{Token, TokenStream, Tokenizer};
 use tantivy::{doc, Index, IndexReader, ReloadPolicy, TantivyDocument, Term};
 
 use crate::library::{DeclId, Library};
+use crate::query::QueryTerm;
 use crate::retrieve::accessible::PremiseFilter;
 
 /// The name under which quarry's tokenizer is registered with tantivy.
@@ -235,13 +236,6 @@ pub fn build(library: &Library, tokenize: TokenizeFn, dir: &Path) -> Result<(), 
     Ok(())
 }
 
-/// One weighted query term.
-#[derive(Clone, Debug, PartialEq)]
-pub struct QueryTerm {
-    pub token: String,
-    pub weight: f32,
-}
-
 /// An opened lexical index, ready to search.
 pub struct LexicalIndex {
     reader: IndexReader,
@@ -331,11 +325,11 @@ impl LexicalIndex {
             }
             let f = self.field(field);
             for t in terms {
-                if t.weight <= 0.0 || t.token.is_empty() {
+                if t.weight <= 0.0 || t.text.is_empty() {
                     continue;
                 }
                 let q = TermQuery::new(
-                    Term::from_field_text(f, &t.token),
+                    Term::from_field_text(f, &t.text),
                     IndexRecordOption::WithFreqs,
                 );
                 clauses.push((Occur::Should, Box::new(BoostQuery::new(Box::new(q), boost * t.weight))));
@@ -466,7 +460,7 @@ mod tests {
 
     fn term(t: &str) -> QueryTerm {
         QueryTerm {
-            token: t.into(),
+            text: t.into(),
             weight: 1.0,
         }
     }

@@ -1,5 +1,231 @@
-//! Retrieval: from a parsed goal to ranked premises.
+//! Retrieval: from a goal's text to ranked premises.
 //!
-//! Takes an opened index and a query; gives a ranking. It never reads source files.
+//! Takes an [`OpenIndex`] and a [`RankRequest`]; gives a [`PremiseRanking`]: the goal as it
+//! was understood, and the premises best first with the evidence of each signal. The
+//! command line, the server and evaluation all call [`rank`]; none of them ranks by itself.
+//! It never reads source files and never writes anything.
 
 pub mod accessible;
+
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+use serde::{Deserialize, Serialize};
+
+use crate::index::lexical::{FieldBoosts, LexicalError};
+use crate::index::OpenIndex;
+use crate::library::{DeclId, DeclKind};
+use crate::query::{parse_goal, GoalError, GoalSelection, GoalState, QueryTerm};
+use accessible::{accessible_premises, QueryPlace};
+
+/// The most premises one request may ask for.
+pub const MAX_LIMIT: usize = 200;
+/// How many premises a request gets when it does not say.
+pub const DEFAULT_LIMIT: usize = 20;
+/// The kinds that answer when a request names none: every kind but notations, which are
+/// syntax, not premises a proof can use (ask for `notation` explicitly to see them).
+pub const DEFAULT_KINDS: [DeclKind; 8] = [
+    DeclKind::Theorem,
+    DeclKind::Definition,
+    DeclKind::Instance,
+    DeclKind::Structure,
+    DeclKind::Inductive,
+    DeclKind::Constructor,
+    DeclKind::Field,
+    DeclKind::Axiom,
+];
+
+/// A source of evidence for ranking premises.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Signal {
+    /// BM25 over quarry's math-aware tokens (tantivy).
+    Lexical,
+}
+
+impl Signal {
+    /// Every signal this build of quarry has.
+    pub const ALL: [Signal; 1] = [Signal::Lexical];
+
+    /// The name used on the command line and in JSON.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Signal::Lexical => "lexical",
+        }
+    }
+
+    /// Parses a name given by [`Signal::as_str`].
+    pub fn parse(text: &str) -> Option<Signal> {
+        Signal::ALL.into_iter().find(|s| s.as_str() == text)
+    }
+}
+
+/// One query for premises.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RankRequest {
+    /// The goal as pasted: an editor's goal display, a statement, or a declaration header.
+    pub goal: String,
+    /// How many premises to return, 1 to [`MAX_LIMIT`].
+    pub limit: usize,
+    /// Where the cursor is: only premises accessible there may answer.
+    pub place: Option<QueryPlace>,
+    /// Only premises of these kinds may answer ([`DEFAULT_KINDS`] when `None`).
+    pub kinds: Option<Vec<DeclKind>>,
+    /// Which signals to use (all when `None`).
+    pub signals: Option<Vec<Signal>>,
+    /// Rank for every goal of a multi-goal display, not just the first.
+    pub all_goals: bool,
+    /// Fill in the matched terms of each premise.
+    pub explain: bool,
+}
+
+impl RankRequest {
+    /// A request for `goal` with the defaults: 20 premises, every declaration, all signals.
+    pub fn new(goal: impl Into<String>) -> RankRequest {
+        RankRequest {
+            goal: goal.into(),
+            limit: DEFAULT_LIMIT,
+            place: None,
+            kinds: None,
+            signals: None,
+            all_goals: false,
+            explain: false,
+        }
+    }
+}
+
+/// What one signal said about one premise.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SignalEvidence {
+    pub signal: Signal,
+    /// 1-based rank of the premise in that signal's own list.
+    pub rank: u32,
+    pub score: f32,
+}
+
+/// One premise of a ranking.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct RankedPremise {
+    pub id: DeclId,
+    /// The final score (higher is better).
+    pub score: f32,
+    /// Each signal that ranked it, with its rank and score there.
+    pub evidence: Vec<SignalEvidence>,
+    /// With `explain`: the query's tokens found in the premise's name or statement.
+    pub matched_terms: Vec<String>,
+}
+
+/// The answer to a [`RankRequest`].
+#[derive(Clone, Debug)]
+pub struct PremiseRanking {
+    /// The goal as it was understood.
+    pub goal: GoalState,
+    /// The weighted query tokens drawn from it.
+    pub terms: Vec<QueryTerm>,
+    pub premises: Vec<RankedPremise>,
+    /// How many declarations were allowed to answer.
+    pub candidates: usize,
+    pub elapsed: Duration,
+}
+
+/// Why a request could not be answered.
+#[derive(Debug, thiserror::Error)]
+pub enum RankError {
+    #[error(transparent)]
+    Goal(#[from] GoalError),
+    #[error("limit {0} is out of range: ask for 1 to {MAX_LIMIT} premises")]
+    Limit(usize),
+    #[error("the goal gave no token to search for (only punctuation, hypothesis names or bound variables?)")]
+    NoTerms,
+    #[error("no signal selected: choose at least one of {}", Signal::ALL.map(|s| s.as_str()).join(", "))]
+    NoSignals,
+    #[error("searching the lexical index failed: {0}")]
+    Lexical(#[from] LexicalError),
+}
+
+impl RankError {
+    /// Whether the request (not the index) is at fault.
+    pub fn is_user_error(&self) -> bool {
+        !matches!(self, RankError::Lexical(_))
+    }
+}
+
+/// Ranks the premises of `index` for `request`.
+pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, RankError> {
+    let started = Instant::now();
+    if request.limit == 0 || request.limit > MAX_LIMIT {
+        return Err(RankError::Limit(request.limit));
+    }
+    let signals = request.signals.as_deref().unwrap_or(&Signal::ALL);
+    if signals.is_empty() {
+        return Err(RankError::NoSignals);
+    }
+    let goal = parse_goal(&request.goal)?;
+    let selection = if request.all_goals {
+        GoalSelection::All
+    } else {
+        GoalSelection::First
+    };
+    let terms = goal.query_terms(&index.tokenizer, selection);
+    if terms.is_empty() {
+        return Err(RankError::NoTerms);
+    }
+    let library = &index.library;
+    let filter = match (&request.place, &request.kinds) {
+        (None, None) => index.default_candidates.clone(),
+        (place, kinds) => Arc::new(accessible_premises(
+            library,
+            place.as_ref(),
+            Some(kinds.as_deref().unwrap_or(&DEFAULT_KINDS)),
+        )),
+    };
+    let candidates = filter.count();
+    let mut premises = Vec::new();
+    if signals.contains(&Signal::Lexical) {
+        let hits = index
+            .lexical
+            .search(&terms, &FieldBoosts::default(), Some(filter), request.limit)?;
+        for (i, (id, score)) in hits.into_iter().enumerate() {
+            premises.push(RankedPremise {
+                id,
+                score,
+                evidence: vec![SignalEvidence {
+                    signal: Signal::Lexical,
+                    rank: i as u32 + 1,
+                    score,
+                }],
+                matched_terms: Vec::new(),
+            });
+        }
+    }
+    if request.explain {
+        for p in &mut premises {
+            p.matched_terms = matched_terms(index, p.id, &terms);
+        }
+    }
+    Ok(PremiseRanking {
+        goal,
+        terms,
+        premises,
+        candidates,
+        elapsed: started.elapsed(),
+    })
+}
+
+/// The query tokens that occur in a premise's name or statement, in query order.
+pub fn matched_terms(index: &OpenIndex, id: DeclId, terms: &[QueryTerm]) -> Vec<String> {
+    let d = index.library.declaration(id);
+    let local = crate::index::lexical::local_name(&index.library, id);
+    let mut tokens: Vec<String> = index
+        .tokenizer
+        .tokenize(local)
+        .texts()
+        .map(str::to_string)
+        .collect();
+    tokens.extend(index.tokenizer.tokenize(&d.statement).texts().map(str::to_string));
+    terms
+        .iter()
+        .filter(|t| tokens.contains(&t.text))
+        .map(|t| t.text.clone())
+        .collect()
+}

@@ -1,0 +1,74 @@
+//! Evaluation queries: held-out theorems turned into goals, with the premises their proofs
+//! used as the answers.
+//!
+//! Takes the library model and the held-out theorem ids; gives [`EvalQuery`]s whose goal
+//! text is the theorem's statement as a declaration header (binders as hypotheses, the
+//! conclusion as the target), whose answers are its proof's premises, and whose place is
+//! the theorem's own position, so only premises accessible there (imported modules and
+//! earlier in its file, never itself) may answer.
+
+use crate::library::{BinderStyle, DeclId, Library};
+use crate::retrieve::accessible::QueryPlace;
+
+/// One query of an evaluation.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EvalQuery {
+    /// The held-out theorem (TREC query id: its fully qualified name).
+    pub theorem: DeclId,
+    /// The goal text given to the ranker.
+    pub goal: String,
+    /// The premises its proof used (TREC qrels).
+    pub relevant: Vec<DeclId>,
+    /// Where the theorem is: the candidates are what is accessible there.
+    pub place: QueryPlace,
+}
+
+/// The statement of `id` as a declaration header: `(n m : nat) {A : Type} [Ring R] : concl`.
+pub fn statement_goal(library: &Library, id: DeclId) -> String {
+    let d = library.declaration(id);
+    let Some(conclusion) = d.conclusion.as_deref().filter(|c| !c.trim().is_empty()) else {
+        return d.statement.clone();
+    };
+    let mut out = String::new();
+    for h in &d.hypotheses {
+        let (open, close) = match h.style {
+            BinderStyle::Explicit => ('(', ')'),
+            BinderStyle::Implicit => ('{', '}'),
+            BinderStyle::Instance => ('[', ']'),
+            BinderStyle::Strict => ('⦃', '⦄'),
+        };
+        out.push(open);
+        match (h.names.is_empty(), h.ty.is_empty()) {
+            (true, _) => out.push_str(&h.ty),
+            (false, true) => out.push_str(&h.names.join(" ")),
+            (false, false) => {
+                out.push_str(&h.names.join(" "));
+                out.push_str(" : ");
+                out.push_str(&h.ty);
+            }
+        }
+        out.push(close);
+        out.push(' ');
+    }
+    out.push_str(": ");
+    out.push_str(conclusion);
+    out
+}
+
+/// The queries for the theorems `ids`.
+pub fn statement_queries(library: &Library, ids: &[DeclId]) -> Vec<EvalQuery> {
+    ids.iter()
+        .map(|&id| {
+            let d = library.declaration(id);
+            EvalQuery {
+                theorem: id,
+                goal: statement_goal(library, id),
+                relevant: library.graph.premises(id).collect(),
+                place: QueryPlace {
+                    module: d.module,
+                    line: Some(d.statement_span.start.line),
+                },
+            }
+        })
+        .collect()
+}

@@ -1,0 +1,7 @@
+//! Setup shared by the integration tests: outside tools and reference packages, fetched by
+//! the tests themselves.
+
+#![allow(dead_code)]
+
+pub mod debian;
+pub mod python;
