@@ -9,6 +9,7 @@
 //! - [`extract`] reads `.lean` and `.v` files into the [`library`] model;
 //! - [`library`] is the model (declarations, modules, dependency graph) and its on-disk form.
 
+pub mod dense;
 pub mod extract;
 pub mod library;
 pub mod server;
