@@ -56,6 +56,10 @@ pub struct NameTable {
     exact: HashMap<String, Vec<u32>>,
     by_last: HashMap<String, Vec<u32>>,
     module_names: Vec<String>,
+    /// Module paths (file modules and the modules declared inside them, as the prefixes of
+    /// declaration names below a file module) with the index of their file module, keyed
+    /// by their last component.
+    module_paths: HashMap<String, Vec<(String, u32)>>,
 }
 
 impl NameTable {
@@ -66,6 +70,15 @@ impl NameTable {
         self.by_last.entry(last).or_default().push(idx);
         self.names.push(name);
         self.sites.push(site);
+    }
+
+    /// Records `path` as a module of file module `file_module` (once).
+    fn insert_module_path(&mut self, path: &str, file_module: u32) {
+        let last = last_component(path).to_string();
+        let entry = self.module_paths.entry(last).or_default();
+        if !entry.iter().any(|(p, m)| p == path && *m == file_module) {
+            entry.push((path.to_string(), file_module));
+        }
     }
 }
 
@@ -124,6 +137,20 @@ impl<'a> ResolveEnv<'a> {
         }
     }
 
+    /// Declarations of the file being resolved whose fully qualified name is `full`,
+    /// wherever they are in the file: for references a language allows to point ahead
+    /// (Lean's `mutual` blocks and `where` functions).
+    pub fn exact_in_file(&self, full: &str) -> Vec<u32> {
+        match self.table.exact.get(full) {
+            Some(ids) => ids
+                .iter()
+                .copied()
+                .filter(|&i| self.table.sites[i as usize].file == self.file)
+                .collect(),
+            None => Vec::new(),
+        }
+    }
+
     /// Visible declarations whose name is `suffix` or ends with `.suffix`.
     pub fn suffix(&self, suffix: &str, at: u32) -> Vec<u32> {
         let last = last_component(suffix);
@@ -166,6 +193,26 @@ impl<'a> ResolveEnv<'a> {
     /// The name of the module being resolved.
     pub fn own_module(&self) -> &str {
         &self.table.module_names[self.module as usize]
+    }
+
+    /// Modules the file can see (file modules and the modules declared inside them) named
+    /// `written` or ending with `.written`, each with the name of its file module. Used to
+    /// resolve `Import M` written inside a file, where `M` may be a module of another file.
+    pub fn modules_by_suffix(&self, written: &str) -> Vec<(&str, &str)> {
+        let Some(paths) = self.table.module_paths.get(last_component(written)) else {
+            return Vec::new();
+        };
+        paths
+            .iter()
+            .filter(|(path, m)| {
+                self.visible[*m as usize]
+                    && (path == written
+                        || (path.len() > written.len()
+                            && path.ends_with(written)
+                            && path.as_bytes()[path.len() - written.len() - 1] == b'.'))
+            })
+            .map(|(path, m)| (path.as_str(), self.table.module_names[*m as usize].as_str()))
+            .collect()
     }
 
     /// Modules whose short names the file's imports open, in the order they were opened
@@ -237,7 +284,16 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
         ..NameTable::default()
     };
     for (fi, f) in files.iter().enumerate() {
+        table.insert_module_path(&f.module_name, fi as u32);
         for d in &f.extraction.declarations {
+            let mut prefix = d.name.as_str();
+            while let Some((head, _)) = split_last_dot(prefix) {
+                if head.len() <= f.module_name.len() {
+                    break;
+                }
+                table.insert_module_path(head, fi as u32);
+                prefix = head;
+            }
             table.insert(
                 d.name.clone(),
                 Site {
