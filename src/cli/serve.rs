@@ -248,7 +248,7 @@ pub fn run(args: ServeArgs) -> anyhow::Result<ExitCode> {
             example_goal,
         } => {
             println!(
-                "quarry: ready on http://{addr}: index {build_id}, {declarations} declarations"
+                "quarry: ready on http://{addr} (index {build_id}, {declarations} declarations)"
             );
             let goal = example_goal.unwrap_or_else(|| "n + 0 = n".to_string());
             println!(

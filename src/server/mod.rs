@@ -123,11 +123,12 @@ fn example_goal(live: &LiveIndex) -> Option<String> {
         .find_map(|d| d.conclusion.clone().filter(|c| !c.trim().is_empty()))
 }
 
-/// Resolves on SIGINT, SIGTERM or `stop`. The handlers are installed when this is called,
-/// so a signal that arrives before the future is first polled is not lost.
+/// Resolves on SIGINT or SIGTERM (`true`) or on `stop` (`false`). The handlers are
+/// installed when this is called, so a signal that arrives before the future is first
+/// polled is not lost.
 fn shutdown_signal(
     stop: Arc<Notify>,
-) -> std::io::Result<impl std::future::Future<Output = ()> + Send> {
+) -> std::io::Result<impl std::future::Future<Output = bool> + Send> {
     #[cfg(unix)]
     {
         use tokio::signal::unix::{signal, SignalKind};
@@ -135,9 +136,9 @@ fn shutdown_signal(
         let mut int = signal(SignalKind::interrupt())?;
         Ok(async move {
             tokio::select! {
-                _ = term.recv() => {}
-                _ = int.recv() => {}
-                _ = stop.notified() => {}
+                _ = term.recv() => true,
+                _ = int.recv() => true,
+                _ = stop.notified() => false,
             }
         })
     }
@@ -145,8 +146,8 @@ fn shutdown_signal(
     {
         Ok(async move {
             tokio::select! {
-                _ = tokio::signal::ctrl_c() => {}
-                _ = stop.notified() => {}
+                _ = tokio::signal::ctrl_c() => true,
+                _ = stop.notified() => false,
             }
         })
     }
@@ -194,8 +195,9 @@ pub async fn serve(
     let signal_task = {
         let events = events.clone();
         async move {
-            signalled.await;
-            events(ServeEvent::ShuttingDown);
+            if signalled.await {
+                events(ServeEvent::ShuttingDown);
+            }
         }
     };
     let server = tokio::spawn(async move {

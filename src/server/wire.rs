@@ -18,6 +18,13 @@ pub const MAX_BATCH: usize = 64;
 /// The most names listed for a declaration's premises or dependents.
 pub const MAX_LISTED: usize = 500;
 
+// The wire's limits stay within what ranking accepts (checked when compiling).
+const _: () = assert!(
+    MAX_LIMIT as usize <= crate::retrieve::MAX_LIMIT
+        && DEFAULT_LIMIT >= 1
+        && DEFAULT_LIMIT <= MAX_LIMIT
+);
+
 fn default_limit() -> u32 {
     DEFAULT_LIMIT
 }
@@ -298,12 +305,6 @@ pub struct HealthResponse {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn the_wire_limits_are_within_what_ranking_accepts() {
-        assert!(MAX_LIMIT as usize <= crate::retrieve::MAX_LIMIT);
-        assert!(DEFAULT_LIMIT <= MAX_LIMIT && DEFAULT_LIMIT >= 1);
-    }
 
     #[test]
     fn a_minimal_rank_body_takes_the_documented_defaults() {

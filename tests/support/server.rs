@@ -4,7 +4,8 @@
 
 #![allow(dead_code)]
 
-use std::io::{BufRead, BufReader, Read};
+use std::io::{BufRead, BufReader, Read, Write};
+use std::net::TcpStream;
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Output, Stdio};
 use std::sync::{Arc, Mutex};
@@ -184,7 +185,7 @@ impl Server {
             match rx.recv_timeout(left) {
                 Ok(line) => {
                     if let Some(rest) = line.strip_prefix("quarry: ready on http://") {
-                        let addr = rest.split(':').take(2).collect::<Vec<_>>().join(":");
+                        let addr = rest.split(' ').next().unwrap_or(rest);
                         let base = format!("http://{addr}");
                         // Keep draining stdout so the server never blocks on a full pipe.
                         std::thread::spawn(move || while rx.recv().is_ok() {});
@@ -354,4 +355,68 @@ pub fn assert_matches_schema(doc: &serde_json::Value, name: &str, value: &serde_
         errors.is_empty(),
         "{name} does not match docs/openapi.yaml: {errors:#?}\n{value:#}"
     );
+}
+
+/// A goal of the scheduler library, as Lean-style display text.
+pub const GOAL: &str = "t : task\nq : queue\n⊢ size (push t q) = S (size q)";
+
+/// A `/v1/rank` body for `goal` with `limit` 5.
+pub fn rank_body(goal: &str) -> String {
+    serde_json::json!({ "goal": goal, "limit": 5 }).to_string()
+}
+
+/// Sends a request head announcing `length` body bytes and the first `sent` of `body`,
+/// leaving the request unfinished; returns the open connection.
+pub fn start_unfinished(base: &str, body: &str, sent: usize) -> TcpStream {
+    let addr = base.trim_start_matches("http://");
+    let mut s = TcpStream::connect(addr).unwrap();
+    s.set_read_timeout(Some(Duration::from_secs(20))).unwrap();
+    let head = format!(
+        "POST /v1/rank HTTP/1.1\r\nHost: {addr}\r\nContent-Type: application/json\r\nContent-Length: {}\r\n\r\n",
+        body.len()
+    );
+    s.write_all(head.as_bytes()).unwrap();
+    s.write_all(&body.as_bytes()[..sent]).unwrap();
+    s.flush().unwrap();
+    s
+}
+
+/// Reads a whole HTTP/1.1 response (the server closes or sends Content-Length bytes).
+pub fn read_response(s: &mut TcpStream) -> (u16, String) {
+    let mut raw = Vec::new();
+    let mut buf = [0u8; 8192];
+    loop {
+        match s.read(&mut buf) {
+            Ok(0) => break,
+            Ok(n) => {
+                raw.extend_from_slice(&buf[..n]);
+                let text = String::from_utf8_lossy(&raw).to_string();
+                if let Some(end) = text.find("\r\n\r\n") {
+                    let len = text[..end]
+                        .lines()
+                        .find_map(|l| {
+                            l.to_ascii_lowercase()
+                                .strip_prefix("content-length:")
+                                .map(|v| v.trim().parse::<usize>().unwrap())
+                        })
+                        .unwrap_or(0);
+                    if raw.len() >= end + 4 + len {
+                        break;
+                    }
+                }
+            }
+            Err(e) => panic!("reading the response: {e}"),
+        }
+    }
+    let text = String::from_utf8_lossy(&raw).to_string();
+    let status = text
+        .split(' ')
+        .nth(1)
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(0);
+    let body = text
+        .split_once("\r\n\r\n")
+        .map(|(_, b)| b.to_string())
+        .unwrap_or_default();
+    (status, body)
 }

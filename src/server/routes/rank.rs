@@ -124,6 +124,15 @@ fn rank_error(e: RankError) -> ApiError {
     ApiError::new(code, e.to_string())
 }
 
+/// An `f32` as the `f64` with the same shortest decimal form, so JSON shows `16.440544`
+/// rather than the binary expansion `16.44054412841797`.
+fn widen(x: f32) -> f64 {
+    if !x.is_finite() {
+        return 0.0;
+    }
+    x.to_string().parse().unwrap_or(f64::from(x))
+}
+
 /// A ranking in wire form.
 pub fn rank_response(loaded: &Loaded, ranking: &PremiseRanking, body: &RankBody) -> RankResponse {
     let library = &loaded.index.library;
@@ -144,14 +153,14 @@ pub fn rank_response(loaded: &Loaded, ranking: &PremiseRanking, body: &RankBody)
             file: file_of(library, d),
             line: d.statement_span.start.line,
             column: d.statement_span.start.column,
-            score: f64::from(p.score),
+            score: widen(p.score),
             signals: p
                 .evidence
                 .iter()
                 .map(|e| SignalRankWire {
                     signal: e.signal.as_str().to_string(),
                     rank: e.rank,
-                    score: f64::from(e.score),
+                    score: widen(e.score),
                 })
                 .collect(),
             matched_terms: body.explain.then(|| p.matched_terms.clone()),
@@ -191,7 +200,7 @@ pub fn rank_response(loaded: &Loaded, ranking: &PremiseRanking, body: &RankBody)
                 .iter()
                 .map(|t| QueryTermWire {
                     text: t.text.clone(),
-                    weight: f64::from(t.weight),
+                    weight: widen(t.weight),
                 })
                 .collect(),
         },
@@ -263,4 +272,16 @@ pub async fn rank_batch(
         results,
         elapsed_ms: started.elapsed().as_secs_f64() * 1000.0,
     }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::widen;
+
+    #[test]
+    fn scores_keep_their_short_decimal_form() {
+        assert_eq!(widen(16.440544).to_string(), "16.440544");
+        assert_eq!(widen(0.5), 0.5);
+        assert_eq!(widen(f32::NAN), 0.0);
+    }
 }
