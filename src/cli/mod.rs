@@ -10,6 +10,7 @@
 
 mod ask;
 mod build;
+mod eval;
 mod inspect;
 // `ask --server` calls it (ask.rs).
 #[allow(dead_code)]
@@ -46,6 +47,8 @@ enum Command {
     Inspect(inspect::InspectArgs),
     /// Rank the premises of an index for a goal (argument or stdin).
     Ask(ask::AskArgs),
+    /// Measure retrieval on held-out proofs of a library (recall@k, MRR, nDCG).
+    Eval(eval::EvalArgs),
     /// Answer ranking requests over HTTP (JSON API under /v1; docs/api.md).
     Serve(serve::ServeArgs),
 }
@@ -57,6 +60,7 @@ pub fn run() -> ExitCode {
         Command::Build(args) => build::run(args),
         Command::Inspect(args) => inspect::run(args),
         Command::Ask(args) => ask::run(args),
+        Command::Eval(args) => eval::run(args),
         Command::Serve(args) => serve::run(args),
     };
     match result {

@@ -8,6 +8,7 @@
 
 pub mod metrics;
 pub mod queries;
+pub mod report;
 pub mod split;
 pub mod trec;
 

@@ -125,6 +125,8 @@ pub struct OpenIndex {
     /// The declarations of the default kinds: the candidates of a request that names no
     /// place and no kinds.
     pub default_candidates: Arc<PremiseFilter>,
+    /// Field boosts of the lexical query (evaluation's tuning changes them between runs).
+    pub lexical_boosts: lexical::FieldBoosts,
 }
 
 impl OpenIndex {
@@ -151,6 +153,7 @@ impl OpenIndex {
             tokenizer,
             lexical,
             default_candidates,
+            lexical_boosts: lexical::FieldBoosts::default(),
         })
     }
 

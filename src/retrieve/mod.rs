@@ -12,7 +12,7 @@ use std::time::{Duration, Instant};
 
 use serde::{Deserialize, Serialize};
 
-use crate::index::lexical::{FieldBoosts, LexicalError};
+use crate::index::lexical::LexicalError;
 use crate::index::OpenIndex;
 use crate::library::{DeclId, DeclKind};
 use crate::query::{parse_goal, GoalError, GoalSelection, GoalState, QueryTerm};
@@ -184,7 +184,7 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     if signals.contains(&Signal::Lexical) {
         let hits = index
             .lexical
-            .search(&terms, &FieldBoosts::default(), Some(filter), request.limit)?;
+            .search(&terms, &index.lexical_boosts, Some(filter), request.limit)?;
         for (i, (id, score)) in hits.into_iter().enumerate() {
             premises.push(RankedPremise {
                 id,
