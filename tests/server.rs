@@ -459,3 +459,93 @@ fn cors_is_off_unless_origins_are_listed() {
         .unwrap();
     assert!(r.headers().get("access-control-allow-origin").is_none());
 }
+
+#[test]
+fn with_no_folder_the_demo_library_is_built_once_and_served() {
+    let cache = tempfile::tempdir().unwrap();
+    let xdg = cache.path().to_str().unwrap();
+    let args: Vec<String> = ["serve", "--listen", "127.0.0.1:0"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    let server = Server::start_with(&args, &[("XDG_CACHE_HOME", xdg)]);
+    assert!(
+        eventually(Duration::from_secs(5), || server
+            .stderr()
+            .contains("built the demo index")),
+        "{}",
+        server.stderr()
+    );
+    let agent = client();
+    let status = get(&agent, &server.url("/v1/status"));
+    let served = status.json["index"]["counts"]["declarations"]
+        .as_u64()
+        .unwrap();
+    // The same count `quarry inspect` reads from the cached index.
+    let index = cache.path().join("quarry/demo-index");
+    let o = quarry(&["inspect", index.to_str().unwrap(), "--json"]);
+    let summary: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(summary["counts"]["declarations"].as_u64(), Some(served));
+    assert!(served > 0);
+    let first = status.json["index"]["build_id"].clone();
+    drop(server);
+
+    // A second start finds the cache up to date and builds nothing.
+    let server = Server::start_with(&args, &[("XDG_CACHE_HOME", xdg)]);
+    assert!(
+        !server.stderr().contains("built the demo index"),
+        "{}",
+        server.stderr()
+    );
+    let status = get(&agent, &server.url("/v1/status"));
+    assert_eq!(status.json["index"]["build_id"], first);
+}
+
+#[test]
+fn every_error_code_and_endpoint_is_documented() {
+    let doc = openapi();
+    let listed: Vec<&str> = doc["components"]["schemas"]["ErrorCode"]["enum"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    let prose = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/api.md"),
+    )
+    .unwrap();
+    let codes: Vec<&str> = quarry::server::errors::ErrorCode::ALL
+        .iter()
+        .map(|c| c.as_str())
+        .collect();
+    for code in &codes {
+        assert!(
+            listed.contains(code),
+            "`{code}` missing from docs/openapi.yaml"
+        );
+        assert!(
+            prose.contains(&format!("`{code}`")),
+            "`{code}` missing from docs/api.md"
+        );
+    }
+    assert_eq!(
+        listed.len(),
+        codes.len(),
+        "docs/openapi.yaml lists codes the server never sends"
+    );
+    for path in [
+        "/v1/rank",
+        "/v1/rank/batch",
+        "/v1/declarations/{name}",
+        "/v1/status",
+        "/healthz",
+        "/readyz",
+        "/metrics",
+    ] {
+        assert!(
+            doc["paths"].get(path).is_some(),
+            "{path} missing from docs/openapi.yaml"
+        );
+        assert!(prose.contains(path), "{path} missing from docs/api.md");
+    }
+}
