@@ -582,3 +582,111 @@ fn proof_edges_match_coqc_glob() {
         100.0 * recall
     );
 }
+
+/// The demo library `index_fixtures/coq` compiles with coqc, and quarry's edges for it are
+/// exactly coqc's `.glob` references (inside each proof and statement span) to its own
+/// declarations.
+#[test]
+fn demo_fixture_edges_are_coqc_references() {
+    let Some(coqc) = coqc() else { return };
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures/coq");
+    let library = build_library(&BuildOptions {
+        roots: vec![fixture.clone()],
+        coq_prefixes: Vec::new(),
+        threads: Some(2),
+        progress: false,
+    })
+    .unwrap_or_else(|e| panic!("quarry could not build `{}`: {e}", fixture.display()));
+    let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("no temporary folder: {e}"));
+    let names: HashSet<&str> = library
+        .declarations
+        .iter()
+        .map(|d| d.name.as_str())
+        .collect();
+    let mut mismatches = Vec::new();
+    let mut agreed = 0;
+    for file in ["Core", "Lemmas", "Queue"] {
+        let src = fixture.join(format!("{file}.v"));
+        let dst = dir.path().join(format!("{file}.v"));
+        std::fs::copy(&src, &dst)
+            .unwrap_or_else(|e| panic!("cannot copy `{}`: {e}", src.display()));
+        let out = Command::new(&coqc)
+            .current_dir(dir.path())
+            .args(["-q", "-R", ".", "RingBuffer", &format!("{file}.v")])
+            .output()
+            .unwrap_or_else(|e| panic!("cannot run coqc: {e}"));
+        assert!(
+            out.status.success(),
+            "coqc rejects the demo file {file}.v: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let glob = std::fs::read_to_string(dst.with_extension("glob"))
+            .unwrap_or_else(|e| panic!("coqc wrote no {file}.glob: {e}"));
+        let refs: Vec<(u32, String)> = glob
+            .lines()
+            .filter_map(|l| {
+                let parts: Vec<&str> = l.strip_prefix('R')?.split_whitespace().collect();
+                let [span, lib, path, name, kind] = parts[..] else {
+                    return None;
+                };
+                if !names_a_declaration(kind) {
+                    return None;
+                }
+                let start = span.split(':').next()?.parse().ok()?;
+                let target = if path == "<>" {
+                    format!("{lib}.{name}")
+                } else {
+                    format!("{lib}.{path}.{name}")
+                };
+                names.contains(target.as_str()).then_some((start, target))
+            })
+            .collect();
+        let module = format!("RingBuffer.{file}");
+        for d in library
+            .declarations
+            .iter()
+            .filter(|d| library.module(d.module).name == module)
+        {
+            let spans = [
+                ("proof", d.proof_span),
+                ("statement", Some(d.statement_span)),
+            ];
+            for (part, span) in spans {
+                let Some(span) = span else { continue };
+                let glob: HashSet<&str> = refs
+                    .iter()
+                    .filter(|(at, t)| *at >= span.start.byte && *at < span.end.byte && *t != d.name)
+                    .map(|(_, t)| t.as_str())
+                    .collect();
+                let ids: Vec<_> = if part == "proof" {
+                    library.graph.premises(d.id).collect()
+                } else {
+                    library.graph.statement_uses.neighbours(d.id).collect()
+                };
+                let quarry: HashSet<&str> = ids
+                    .into_iter()
+                    .map(|t| library.declaration(t).name.as_str())
+                    .collect();
+                agreed += quarry.intersection(&glob).count();
+                for t in quarry.symmetric_difference(&glob) {
+                    let who = if quarry.contains(t) {
+                        "quarry only"
+                    } else {
+                        "coqc only"
+                    };
+                    mismatches.push(format!("{part} {} -> {t} ({who})", d.name));
+                }
+            }
+        }
+    }
+    println!(
+        "demo library: {agreed} edges agree with coqc's .glob, {} differ",
+        mismatches.len()
+    );
+    assert!(
+        mismatches.is_empty(),
+        "edges differ from coqc's .glob:\n  {}",
+        mismatches.join("\n  ")
+    );
+    assert!(agreed >= 100, "only {agreed} edges compared");
+}

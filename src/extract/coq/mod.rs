@@ -662,6 +662,11 @@ impl<'a> Extractor<'a> {
             .iter()
             .chain(proof.iter().flat_map(|p| p.refs.iter()))
             .map(|r| r.name.as_str())
+            .chain(
+                proof
+                    .iter()
+                    .flat_map(|p| p.hypotheses.iter().map(String::as_str)),
+            )
             .chain(using.iter().map(String::as_str));
         for name in written {
             if variable_names.contains(name) && !statement.bound.contains(name) {

@@ -26,6 +26,9 @@ pub struct Scan {
     pub refs: Vec<RawReference>,
     /// Names bound locally somewhere in the scanned text.
     pub bound: HashSet<String>,
+    /// Hypothesis names written where no global can stand (`in H`, `clear H`, `revert H`):
+    /// no references, but they tell which section variables a proof uses.
+    pub hypotheses: Vec<String>,
 }
 
 impl Scan {
@@ -559,10 +562,13 @@ impl<'a> Scanner<'a> {
                 _ => {}
             }
             if kind == Some(TokenKind::Ident) {
-                if self.hypotheses || self.databases {
+                if self.databases {
                     return i + 1;
                 }
-                if self.pattern.is_none() && self.tactic.is_some_and(takes_hypotheses) {
+                if self.hypotheses
+                    || (self.pattern.is_none() && self.tactic.is_some_and(takes_hypotheses))
+                {
+                    self.out.hypotheses.push(s.to_string());
                     return i + 1;
                 }
             }
