@@ -632,6 +632,13 @@ fn notation(r: &Reader, what: Declares, range: Range<usize>) -> Option<Draft> {
         }
         i += 1;
     }
+    // `Notation old := new (only parsing)`: an alias kept for old names (coqdoc anchors
+    // none, and coqc's `.glob` records uses of it as uses of `new`): not a declaration.
+    let only_parsing =
+        (term_end..range.end).any(|k| r.word(k) == "only" && r.word(k + 1) == "parsing");
+    if first.kind == TokenKind::Ident && only_parsing {
+        return None;
+    }
     let (name, symbols, variables): (String, Vec<String>, Vec<String>) = match first.kind {
         TokenKind::Str => {
             let content = string_content(r.word(at));
