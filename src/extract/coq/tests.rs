@@ -3,6 +3,7 @@
 use proptest::prelude::*;
 
 use super::*;
+use crate::extract::RawDeclaration;
 use crate::library::BinderStyle;
 
 fn names(e: &FileExtraction) -> Vec<(String, &'static str)> {
