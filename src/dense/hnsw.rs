@@ -41,18 +41,24 @@ pub struct HnswParams {
     /// Neighbours kept per point on upper layers (`hnsw_rs` keeps 2·M on layer 0).
     /// Default 16, the common middle of the range the HNSW paper studies (5..48).
     pub m: usize,
-    /// Beam width while building. Default 200.
+    /// Beam width while building. Default 100.
     pub ef_construction: usize,
-    /// Beam width while searching (at least k is used). Default 128.
+    /// Beam width while searching (at least k is used). Default 64.
     pub ef_search: usize,
+    /// Insert points from rayon's threads (`hnsw_rs`'s parallel insertion): about as many
+    /// times faster as there are cores, but the graph then depends on thread timing, so
+    /// two builds of the same vectors differ. Default false: points go in one by one in id
+    /// order and a build is reproducible.
+    pub parallel_build: bool,
 }
 
 impl Default for HnswParams {
     fn default() -> Self {
         HnswParams {
             m: 16,
-            ef_construction: 200,
-            ef_search: 128,
+            ef_construction: 100,
+            ef_search: 64,
+            parallel_build: false,
         }
     }
 }
@@ -147,8 +153,13 @@ impl HnswIndex {
         }
         let graph: Hnsw<'_, f32, UnitDot> =
             Hnsw::new(params.m, n, MAX_LAYERS, params.ef_construction, UnitDot);
-        for (id, v) in vectors.iter().enumerate() {
-            graph.insert_slice((v, id));
+        if params.parallel_build {
+            let points: Vec<(&[f32], usize)> = vectors.iter().zip(0..).collect();
+            graph.parallel_insert_slice(&points);
+        } else {
+            for (id, v) in vectors.iter().enumerate() {
+                graph.insert_slice((v, id));
+            }
         }
         // Read the layers out: each point's top level and its neighbours on every level.
         let mut levels = vec![0usize; n];
@@ -283,9 +294,9 @@ impl HnswIndex {
     }
 
     /// The graph as bytes (the vectors are saved apart, see [`VectorSet::to_bytes`]).
-    /// Layout (little-endian): magic `QRYHNSW\x01`; m, ef_construction, ef_search, points,
-    /// entry, layers (u32 each); per layer the neighbour count u32, points + 1 offsets u32
-    /// and the neighbours u32; BLAKE3 of all that.
+    /// Layout (little-endian): magic `QRYHNSW\x01`; m, ef_construction, ef_search,
+    /// parallel build (0 or 1), points, entry, layers (u32 each); per layer the neighbour
+    /// count u32, points + 1 offsets u32 and the neighbours u32; BLAKE3 of all that.
     pub fn graph_bytes(&self) -> Vec<u8> {
         let mut w = PartWriter::new(
             MAGIC,
@@ -299,6 +310,7 @@ impl HnswIndex {
             self.params.m,
             self.params.ef_construction,
             self.params.ef_search,
+            usize::from(self.params.parallel_build),
             self.vectors.len(),
             self.entry as usize,
             self.layers.len(),
@@ -321,6 +333,7 @@ impl HnswIndex {
             m: r.u32()? as usize,
             ef_construction: r.u32()? as usize,
             ef_search: r.u32()? as usize,
+            parallel_build: r.u32()? != 0,
         };
         params
             .validate()
@@ -376,15 +389,30 @@ mod tests {
     #[test]
     fn finds_itself_and_round_trips() {
         let vectors = clustered_vectors(4, 600, 16, 12, 0.5).expect("valid vectors");
-        let index = HnswIndex::build(vectors.clone(), HnswParams::default()).expect("valid params");
-        for id in [0u32, 77, 599] {
-            let q = vectors.get(id).map(<[f32]>::to_vec).unwrap_or_default();
-            let hits = index.search(&q, 5);
-            assert_eq!(hits.first().map(|h| h.0), Some(id));
-            assert!((hits[0].1 - 1.0).abs() < 1e-5);
+        for parallel_build in [false, true] {
+            let params = HnswParams {
+                parallel_build,
+                ..HnswParams::default()
+            };
+            let index = HnswIndex::build(vectors.clone(), params).expect("valid params");
+            for id in [0u32, 77, 599] {
+                let q = vectors.get(id).map(<[f32]>::to_vec).unwrap_or_default();
+                let hits = index.search(&q, 5);
+                assert_eq!(hits.first().map(|h| h.0), Some(id));
+                assert!((hits[0].1 - 1.0).abs() < 1e-5);
+            }
+            let back =
+                HnswIndex::from_parts(vectors.clone(), &index.graph_bytes()).expect("own bytes");
+            assert_eq!(back, index);
         }
-        let back = HnswIndex::from_parts(vectors.clone(), &index.graph_bytes()).expect("own bytes");
-        assert_eq!(back, index);
+    }
+
+    #[test]
+    fn sequential_builds_repeat() {
+        let vectors = clustered_vectors(6, 400, 8, 6, 0.5).expect("valid vectors");
+        let a = HnswIndex::build(vectors.clone(), HnswParams::default()).expect("valid params");
+        let b = HnswIndex::build(vectors, HnswParams::default()).expect("valid params");
+        assert_eq!(a.graph_bytes(), b.graph_bytes());
     }
 
     #[test]
