@@ -309,11 +309,14 @@ pub fn read(r: &Reader, what: Declares, start: usize, end: usize) -> Vec<Draft> 
             .collect(),
         Declares::Definition(kind) => {
             let body_end = r.find_top(start..end, |w| w == "where").unwrap_or(end);
-            r.split_top(start..body_end, "with")
+            let mut out: Vec<Draft> = r
+                .split_top(start..body_end, "with")
                 .into_iter()
                 .filter(|p| r.is_ident(p.start))
                 .map(|p| r.signature(r.word(p.start).to_string(), kind, p.start, p.end))
-                .collect()
+                .collect();
+            out.extend(where_notations(r, body_end, end));
+            out
         }
         Declares::Inductive => {
             let body_end = r.find_top(start..end, |w| w == "where").unwrap_or(end);
@@ -323,6 +326,7 @@ pub fn read(r: &Reader, what: Declares, start: usize, end: usize) -> Vec<Draft> 
                     out.extend(inductive(r, p));
                 }
             }
+            out.extend(where_notations(r, body_end, end));
             out
         }
         Declares::Record => record(r, start..end),
@@ -343,6 +347,17 @@ pub fn read(r: &Reader, what: Declares, start: usize, end: usize) -> Vec<Draft> 
                 .collect()
         }
     }
+}
+
+/// The notations of a `where "x <+> y" := (...) and ...` clause starting at `at`.
+fn where_notations(r: &Reader, at: usize, end: usize) -> Vec<Draft> {
+    if at >= end {
+        return Vec::new();
+    }
+    r.split_top(at + 1..end, "and")
+        .into_iter()
+        .filter_map(|p| notations::notation(r, false, p))
+        .collect()
 }
 
 /// One block of an inductive: the type, then its constructors.

@@ -259,6 +259,28 @@ fn notations_give_symbols_and_what_they_unfold_to() {
 }
 
 #[test]
+fn where_clauses_declare_notations() {
+    let text = "Reserved Notation \"a <+> b\" (at level 50).\n\
+                Fixpoint join (a b : nat) : nat := match a with O => b | S k => S (k <+> b) end\n\
+                where \"a <+> b\" := (join a b) : nat_scope.\n";
+    let e = extract("T", text);
+    let got: Vec<(&str, DeclKind)> = e
+        .declarations
+        .iter()
+        .map(|d| (d.name.as_str(), d.kind))
+        .collect();
+    assert_eq!(
+        got,
+        [
+            ("T.join", DeclKind::Definition),
+            ("T.x_'<+>'_x", DeclKind::Notation)
+        ]
+    );
+    let info = e.declarations[1].notation.as_ref().expect("notation info");
+    assert_eq!(info.unfolds_to_written.as_deref(), Some("join"));
+}
+
+#[test]
 fn attributes_and_visibility() {
     let text = "#[local] Instance i : Default nat := {}.\n\
                 #[export, program] Instance j : Default bool.\n\
