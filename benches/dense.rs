@@ -22,6 +22,13 @@ fn bench_encode(c: &mut Criterion) {
         Ok(e) => e,
         Err(e) => return eprintln!("skipping the encoding bench: {e}"),
     };
+    let bytes = encoder.to_bytes();
+    let mut group = c.benchmark_group("encoder bytes");
+    group.sample_size(10);
+    group.bench_function("load a 2^18 × 256 encoder from bytes (untrained)", |b| {
+        b.iter(|| black_box(LearnedEncoder::from_bytes(black_box(&bytes)).is_ok()))
+    });
+    group.finish();
     let tokens: Vec<&str> = GOAL.split_whitespace().collect();
     c.bench_function(
         &format!(

@@ -12,6 +12,25 @@
 //! It deliberately does not tokenize, read source files, fuse its scores with other
 //! signals, or pick hard negatives: the caller gives those (from BM25, say).
 //!
+//! ```
+//! use quarry::dense::synthetic::ring_and_scheduler_task;
+//! use quarry::dense::{train, EncoderSettings, Encoder, IndexParams, TrainConfig, VectorIndex, VectorSet};
+//!
+//! let (data, _) = ring_and_scheduler_task(1, 40, 30, 0);
+//! let config = TrainConfig {
+//!     encoder: EncoderSettings { buckets: 1 << 10, dim: 16, seed: 1 },
+//!     epochs: 2,
+//!     ..TrainConfig::default()
+//! };
+//! let (encoder, report) = train(&data, &config, None)?;
+//! assert_eq!(report.epochs.len(), 2);
+//! let rows: Vec<Vec<f32>> = data.premises.iter().map(|p| encoder.encode_premise_tokens(p)).collect();
+//! let index = VectorIndex::build(VectorSet::from_rows(16, &rows)?, &IndexParams::default())?;
+//! let hits = index.search(&encoder.encode_goal(&["ring_push", "capacity", "size"]), 5);
+//! assert_eq!(hits.len(), 5);
+//! # Ok::<(), quarry::dense::DenseError>(())
+//! ```
+//!
 //! Everything is deterministic for a seed: the same inputs and settings give the same bytes
 //! whatever rayon's thread count, because parallel work is only ever collected in order and
 //! reduced sequentially.
