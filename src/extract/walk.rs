@@ -95,7 +95,8 @@ struct Found {
     module: String,
 }
 
-/// Reads the `-R`/`-Q` lines of a `_CoqProject` in `root`, if there is one.
+/// Reads the `-R`/`-Q` lines of a `_CoqProject` in `root`, if there is one; their folders
+/// are relative to `root`.
 pub fn coq_project_prefixes(root: &Path) -> Result<Vec<CoqPrefix>, WalkError> {
     let path = root.join("_CoqProject");
     let text = match std::fs::read_to_string(&path) {
@@ -165,6 +166,20 @@ fn canonical(p: &Path) -> PathBuf {
     std::fs::canonicalize(p).unwrap_or_else(|_| p.to_path_buf())
 }
 
+/// Files that mark the base folder of a Lean package: module names start below it.
+const LEAN_PACKAGE_FILES: [&str; 2] = ["lakefile.lean", "lakefile.toml"];
+
+/// The folder Lean module names of `path` start from: the nearest folder at or below
+/// `root` holding a lakefile, else `root`.
+fn lean_base(root: &Path, path: &Path, packages: &[PathBuf]) -> PathBuf {
+    packages
+        .iter()
+        .filter(|p| path.starts_with(p))
+        .max_by_key(|p| p.components().count())
+        .cloned()
+        .unwrap_or_else(|| root.to_path_buf())
+}
+
 fn find_sources(opts: &BuildOptions) -> Result<(Vec<String>, Vec<Found>), WalkError> {
     let mut roots = Vec::new();
     let mut found = Vec::new();
@@ -173,10 +188,12 @@ fn find_sources(opts: &BuildOptions) -> Result<(Vec<String>, Vec<Found>), WalkEr
             return Err(WalkError::MissingRoot(root.clone()));
         }
         let root_abs = canonical(root);
-        let mut prefixes = opts.coq_prefixes.clone();
-        prefixes.extend(coq_project_prefixes(&root_abs)?);
         roots.push(root_abs.to_string_lossy().into_owned());
-        let mut here = Vec::new();
+        // One walk: the sources, and the project files that say how to name their modules
+        // (`_CoqProject` anywhere under the root, lakefiles for Lean packages).
+        let mut sources = Vec::new();
+        let mut coq_projects = Vec::new();
+        let mut lean_packages = Vec::new();
         for entry in ignore::WalkBuilder::new(&root_abs)
             .require_git(false)
             .follow_links(false)
@@ -187,20 +204,41 @@ fn find_sources(opts: &BuildOptions) -> Result<(Vec<String>, Vec<Found>), WalkEr
             if !entry.file_type().is_some_and(|t| t.is_file()) {
                 continue;
             }
-            let Some(language) = Language::of_path(path) else {
-                continue;
-            };
+            let name = entry.file_name().to_string_lossy();
+            if name == "_CoqProject" {
+                if let Some(dir) = path.parent() {
+                    coq_projects.push(dir.to_path_buf());
+                }
+            } else if LEAN_PACKAGE_FILES.contains(&name.as_ref()) {
+                if let Some(dir) = path.parent() {
+                    lean_packages.push(dir.to_path_buf());
+                }
+            } else if let Some(language) = Language::of_path(path) {
+                sources.push((path.to_path_buf(), language));
+            }
+        }
+        let mut prefixes = opts.coq_prefixes.clone();
+        coq_projects.sort();
+        for dir in &coq_projects {
+            prefixes.extend(coq_project_prefixes(dir)?);
+        }
+        let mut here = Vec::new();
+        for (path, language) in sources {
             let rel = path
                 .strip_prefix(&root_abs)
-                .unwrap_or(path)
+                .unwrap_or(&path)
                 .components()
                 .map(|c| c.as_os_str().to_string_lossy().into_owned())
                 .collect::<Vec<_>>()
                 .join("/");
-            let module = module_name(language, &root_abs, path, &prefixes);
+            let base = match language {
+                Language::Lean => lean_base(&root_abs, &path, &lean_packages),
+                Language::Coq => root_abs.clone(),
+            };
+            let module = module_name(language, &base, &path, &prefixes);
             here.push(Found {
                 root: ri as u32,
-                abs: path.to_path_buf(),
+                abs: path,
                 rel,
                 language,
                 module,

@@ -145,7 +145,13 @@ impl<'a> Extractor<'a> {
                 || reader.tokens.get(d.name_token).map_or(start, |t| t.end),
                 |t| t.end,
             );
-        raw.statement = reader.text_of(d.statement.clone());
+        // `Lemma l : P.` is written with the colon right after the name; the statement of a
+        // declaration without binders is its type, not `: P`.
+        let statement = reader.text_of(d.statement.clone());
+        raw.statement = match statement.strip_prefix(':') {
+            Some(rest) if !rest.starts_with('=') => rest.trim_start().to_string(),
+            _ => statement,
+        };
         raw.statement_span = self.index.span(start as usize, end.max(start) as usize);
         raw.hypotheses = d.hypotheses.clone();
         raw.conclusion = d.conclusion.clone().map(|c| reader.text_of(c));

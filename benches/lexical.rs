@@ -1,0 +1,121 @@
+//! The lexical path on the Coq standard library index (Debian's `libcoq-stdlib`; the demo
+//! library when it is not installed): tokenizing a goal, parsing a goal display, opening
+//! the index, ranking a typical goal, and refusing a 10 MB goal.
+//! `cargo bench --bench lexical`; figures in docs/performance.md.
+
+use std::path::PathBuf;
+
+use criterion::{criterion_group, criterion_main, BatchSize, Criterion};
+use quarry::eval::queries::statement_goal;
+use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::index::{build_index, OpenIndex};
+use quarry::library::DeclKind;
+use quarry::query::parse_goal;
+use quarry::retrieve::{rank, RankRequest};
+use quarry::tokens::Tokenizer;
+
+fn options() -> (String, BuildOptions) {
+    let stdlib = PathBuf::from("/usr/lib/ocaml/coq/theories");
+    if stdlib.is_dir() {
+        (
+            "coq-stdlib".into(),
+            BuildOptions {
+                roots: vec![stdlib.clone()],
+                coq_prefixes: vec![CoqPrefix {
+                    logical: "Coq".into(),
+                    dir: stdlib,
+                }],
+                ..BuildOptions::default()
+            },
+        )
+    } else {
+        (
+            "demo-library".into(),
+            BuildOptions {
+                roots: vec![PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("index_fixtures")],
+                ..BuildOptions::default()
+            },
+        )
+    }
+}
+
+const COQ_GOAL: &str = "n, m, p : nat\nH : n <= m\nH0 : m < p\n============================\nn + 0 <= p * 1 + m";
+
+fn bench_lexical(c: &mut Criterion) {
+    let (name, opts) = options();
+    let library = match build_library(&opts) {
+        Ok(l) => l,
+        Err(e) => {
+            eprintln!("skipping the lexical bench: {e}");
+            return;
+        }
+    };
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    if let Err(e) = build_index(dir.path(), &library, Default::default()) {
+        eprintln!("skipping the lexical bench: {e}");
+        return;
+    }
+    let index = OpenIndex::open(dir.path()).expect("the index opens");
+    // Typical goals: evenly spaced theorem statements of the library, as headers.
+    let theorems: Vec<_> = library
+        .declarations
+        .iter()
+        .filter(|d| d.kind == DeclKind::Theorem)
+        .map(|d| d.id)
+        .collect();
+    let step = (theorems.len() / 100).max(1);
+    let goals: Vec<String> = theorems
+        .iter()
+        .step_by(step)
+        .take(100)
+        .map(|&id| statement_goal(&library, id))
+        .collect();
+    let tokens: Vec<usize> = goals
+        .iter()
+        .map(|g| Tokenizer::standard().tokenize(g).len())
+        .collect();
+    eprintln!(
+        "{name}: {} declarations; {} goals, median {} tokens",
+        library.declarations.len(),
+        goals.len(),
+        {
+            let mut t = tokens.clone();
+            t.sort();
+            t.get(t.len() / 2).copied().unwrap_or(0)
+        }
+    );
+
+    let mut group = c.benchmark_group("lexical");
+    group.bench_function("tokenize/coq-goal-display", |b| {
+        b.iter(|| index.tokenizer.tokenize(COQ_GOAL).len())
+    });
+    group.bench_function("parse/coq-goal-display", |b| {
+        b.iter(|| parse_goal(COQ_GOAL).map(|g| g.goals.len()).unwrap_or(0))
+    });
+    let mut i = 0;
+    group.bench_function(format!("rank/{name}/statement-goals"), |b| {
+        b.iter(|| {
+            i = (i + 1) % goals.len();
+            let r = rank(&index, &RankRequest::new(goals[i].clone()));
+            r.map(|r| r.premises.len()).unwrap_or(0)
+        })
+    });
+    group.bench_function(format!("rank/{name}/coq-goal-display"), |b| {
+        b.iter(|| rank(&index, &RankRequest::new(COQ_GOAL)).map(|r| r.premises.len()).unwrap_or(0))
+    });
+    let huge = "x".repeat(10 << 20);
+    // `rank` refuses before any other work: parsing is its first step after the limit check.
+    group.bench_function("parse/refuse-10MB-goal", |b| b.iter(|| parse_goal(&huge).is_err()));
+    group.sample_size(10);
+    group.bench_function(format!("open/{name}"), |b| {
+        b.iter_batched(
+            || (),
+            |_| OpenIndex::open(dir.path()).map(|i| i.library.declarations.len()).unwrap_or(0),
+            BatchSize::PerIteration,
+        )
+    });
+    group.finish();
+}
+
+criterion_group!(benches, bench_lexical);
+criterion_main!(benches);
