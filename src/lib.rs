@@ -11,5 +11,6 @@
 
 pub mod dense;
 pub mod extract;
+pub mod harvest;
 pub mod library;
 pub mod server;

@@ -11,6 +11,7 @@
 mod ask;
 mod build;
 mod eval;
+mod harvest;
 mod inspect;
 // `ask --server` calls it (ask.rs).
 #[allow(dead_code)]
@@ -51,6 +52,9 @@ enum Command {
     Eval(eval::EvalArgs),
     /// Answer ranking requests over HTTP (JSON API under /v1; docs/api.md).
     Serve(serve::ServeArgs),
+    /// Replay a Coq library's proofs with coqc and write the goal before each tactic
+    /// (JSON lines; docs/evaluation.md).
+    Harvest(harvest::HarvestArgs),
 }
 
 /// Parses the command line and runs the subcommand.
@@ -62,6 +66,7 @@ pub fn run() -> ExitCode {
         Command::Ask(args) => ask::run(args),
         Command::Eval(args) => eval::run(args),
         Command::Serve(args) => serve::run(args),
+        Command::Harvest(args) => harvest::run(args),
     };
     match result {
         Ok(code) => code,

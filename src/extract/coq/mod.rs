@@ -88,6 +88,40 @@ pub fn extract(module: &str, text: &str) -> FileExtraction {
     ex.out
 }
 
+/// One sentence of a Coq file as coqc splits it: its byte range (up to and including its
+/// `.`, or the bullet or brace itself) and whether it is a bullet or a focusing brace.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct SentenceSpan {
+    /// Byte offset of the sentence's first token.
+    pub start: u32,
+    /// Byte offset just past the sentence.
+    pub end: u32,
+    /// A bullet (`-`, `+`, `*`, ...) or a focusing brace (`{`, `}`, `2: {`).
+    pub bullet: bool,
+}
+
+/// The sentences of a Coq file in order, comments left out (for tools that work sentence by
+/// sentence, e.g. `harvest`, which instruments every tactic of a proof).
+///
+/// ```
+/// use quarry::extract::coq::sentence_spans;
+/// let s = sentence_spans("Proof. - auto. Qed.");
+/// assert_eq!(s.len(), 4);
+/// assert!(s[1].bullet);
+/// assert_eq!((s[2].start, s[2].end), (9, 14));
+/// ```
+pub fn sentence_spans(text: &str) -> Vec<SentenceSpan> {
+    lexer::lex(text)
+        .sentences
+        .iter()
+        .map(|s| SentenceSpan {
+            start: s.start,
+            end: s.end,
+            bullet: s.bullet,
+        })
+        .collect()
+}
+
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 enum FrameKind {
     Module,
