@@ -3,12 +3,14 @@
 //!
 //! Takes the library model and the held-out theorem ids; gives [`EvalQuery`]s whose goal
 //! text is the theorem's statement as a declaration header (binders as hypotheses, the
-//! conclusion as the target), whose answers are its proof's premises, and whose place is
+//! conclusion as the target), whose answers are its proof's premises (of the kinds that can
+//! answer: not notations), and whose place is
 //! the theorem's own position, so only premises accessible there (imported modules and
 //! earlier in its file, never itself) may answer.
 
 use crate::library::{BinderStyle, DeclId, Library};
 use crate::retrieve::accessible::QueryPlace;
+use crate::retrieve::DEFAULT_KINDS;
 
 /// One query of an evaluation.
 #[derive(Clone, Debug, PartialEq)]
@@ -55,6 +57,16 @@ pub fn statement_goal(library: &Library, id: DeclId) -> String {
     out
 }
 
+/// The premises of `id`'s proof that can answer a query: those of the default kinds
+/// (notations are syntax a proof writes, not premises a retriever should return).
+pub fn answer_premises(library: &Library, id: DeclId) -> Vec<DeclId> {
+    library
+        .graph
+        .premises(id)
+        .filter(|&p| DEFAULT_KINDS.contains(&library.declaration(p).kind))
+        .collect()
+}
+
 /// The queries for the theorems `ids`.
 pub fn statement_queries(library: &Library, ids: &[DeclId]) -> Vec<EvalQuery> {
     ids.iter()
@@ -63,7 +75,7 @@ pub fn statement_queries(library: &Library, ids: &[DeclId]) -> Vec<EvalQuery> {
             EvalQuery {
                 theorem: id,
                 goal: statement_goal(library, id),
-                relevant: library.graph.premises(id).collect(),
+                relevant: answer_premises(library, id),
                 place: QueryPlace {
                     module: d.module,
                     line: Some(d.statement_span.start.line),

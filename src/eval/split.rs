@@ -15,6 +15,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::dense::seeded::SplitMix64;
 use crate::library::{DeclId, DeclKind, FileId, Library, ProofEnding};
+use crate::retrieve::DEFAULT_KINDS;
 
 /// How theorems are held out.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
@@ -100,7 +101,8 @@ pub enum SplitError {
     NothingEligible,
 }
 
-/// Theorems that can be queries: theorems with a proof that uses at least one premise.
+/// Theorems that can be queries: theorems with a proof that uses at least one premise of
+/// a kind that can answer (see [`answer_premises`](super::queries::answer_premises)).
 pub fn eligible_theorems(library: &Library) -> Vec<DeclId> {
     library
         .declarations
@@ -108,7 +110,10 @@ pub fn eligible_theorems(library: &Library) -> Vec<DeclId> {
         .filter(|d| {
             d.kind == DeclKind::Theorem
                 && d.proof_ending != Some(ProofEnding::Admitted)
-                && library.graph.proof_uses.degree(d.id) > 0
+                && library
+                    .graph
+                    .premises(d.id)
+                    .any(|p| DEFAULT_KINDS.contains(&library.declaration(p).kind))
         })
         .map(|d| d.id)
         .collect()
