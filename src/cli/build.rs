@@ -8,7 +8,11 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::Args;
 use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
-use quarry::index::build_index;
+use quarry::eval::tune_fusion;
+use quarry::index::dense::DenseMode;
+use quarry::index::{build_index_with, BuildConfig, FusionChoice};
+use quarry::retrieve::fusion::FusionWeights;
+use quarry::retrieve::Signal;
 use quarry::library::{store, Library, Severity};
 
 /// Arguments of `quarry build`.
@@ -30,6 +34,46 @@ pub struct BuildArgs {
     /// Print only errors.
     #[arg(long, short)]
     quiet: bool,
+    /// The dense signal: `learned` (train the hashed-feature encoder on the library's own
+    /// proofs) or `off`.
+    #[arg(long, default_value = "learned", value_parser = parse_dense)]
+    dense: DenseMode,
+    /// Fusion weights, `signal=weight` comma separated (e.g. `lexical=1,neighbours=2`);
+    /// signals not named weigh 1. Default: tuned on a held-out tenth of the library's
+    /// proofs.
+    #[arg(long, value_name = "SIGNAL=WEIGHT", value_delimiter = ',', value_parser = parse_weight)]
+    fusion_weights: Option<Vec<(String, f32)>>,
+    /// Seed of the validation hold-out and of the encoder.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+}
+
+fn parse_dense(s: &str) -> Result<DenseMode, String> {
+    match s {
+        "learned" => Ok(DenseMode::Learned),
+        "off" => Ok(DenseMode::Off),
+        _ => Err(format!("unknown dense mode `{s}`: learned or off")),
+    }
+}
+
+fn parse_weight(s: &str) -> Result<(String, f32), String> {
+    let (name, weight) = s
+        .split_once('=')
+        .ok_or_else(|| format!("`{s}` is not SIGNAL=WEIGHT"))?;
+    let signal = Signal::parse(name.trim()).ok_or_else(|| {
+        format!(
+            "unknown signal `{name}`; signals are {}",
+            Signal::ALL.map(|k| k.as_str()).join(", ")
+        )
+    })?;
+    let w: f32 = weight
+        .trim()
+        .parse()
+        .map_err(|_| format!("weight `{weight}` of `{name}` is not a number"))?;
+    if !(w.is_finite() && w >= 0.0) {
+        return Err(format!("weight `{weight}` of `{name}` must be 0 or more"));
+    }
+    Ok((signal.as_str().to_string(), w))
 }
 
 fn parse_prefix(s: &str) -> Result<CoqPrefix, String> {
@@ -101,7 +145,23 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
             .map(|p| format!("{}={}", p.logical, p.dir.display()))
             .collect::<Vec<_>>()),
     );
-    let (gen, timings) = build_index(&args.out, &library, settings)
+    let fixed = args.fusion_weights.clone().map(|weights| FusionWeights {
+        weights,
+        ..FusionWeights::default()
+    });
+    let tuner = |index: &quarry::index::OpenIndex, validation: &[quarry::library::DeclId]| {
+        tune_fusion(index, validation).map_err(|e| e.to_string())
+    };
+    let config = BuildConfig {
+        dense: args.dense,
+        fusion: match &fixed {
+            Some(w) => FusionChoice::Fixed(w),
+            None => FusionChoice::Tuned(&tuner),
+        },
+        seed: args.seed,
+        ..BuildConfig::default()
+    };
+    let (gen, timings) = build_index_with(&args.out, &library, settings, &config)
         .with_context(|| format!("cannot write the index to `{}`", args.out.display()))?;
     if !args.quiet {
         let counts = store::Counts::of(&library);
@@ -119,9 +179,12 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
             counts.references_ambiguous,
         );
         println!(
-            "extracted in {:.2} s, lexical index {:.2} s, written in {:.2} s to {}",
+            "extracted in {:.2} s, lexical index {:.2} s, dense part {:.2} s, fusion tuned in \
+             {:.2} s, written in {:.2} s to {}",
             extracted.as_secs_f64(),
             timings.lexical_seconds,
+            timings.dense_seconds,
+            timings.tuning_seconds,
             timings.write_seconds,
             super::display_path(&gen)
         );

@@ -13,7 +13,7 @@ use quarry::eval::split::{eligible_theorems, split, SplitConfig, SplitKind};
 use quarry::eval::{run_system, summarise, trec, System};
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
 use quarry::index::lexical::FieldBoosts;
-use quarry::index::{build_index, OpenIndex};
+use quarry::index::{build_index_with, BuildConfig, FusionChoice, OpenIndex};
 use quarry::retrieve::Signal;
 
 /// Arguments of `quarry eval`.
@@ -106,7 +106,20 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
     let scratch = tempfile::tempdir().context("cannot make a temporary folder for the index")?;
     let mut settings = BTreeMap::new();
     settings.insert("evaluation".to_string(), serde_json::json!(true));
-    build_index(scratch.path(), &library, settings).context("cannot build the index")?;
+    // Only the training part is learned from, and the fusion is tuned on the validation
+    // part: no test proof may reach the index that answers it.
+    let tuner = |index: &OpenIndex, validation: &[quarry::library::DeclId]| {
+        quarry::eval::tune_fusion(index, validation).map_err(|e| e.to_string())
+    };
+    let config = BuildConfig {
+        training: Some(&split.train),
+        validation: Some(&split.validation),
+        fusion: FusionChoice::Tuned(&tuner),
+        seed: args.seed,
+        ..BuildConfig::default()
+    };
+    build_index_with(scratch.path(), &library, settings, &config)
+        .context("cannot build the index")?;
     let mut index = OpenIndex::open(scratch.path()).context("cannot open the index")?;
     seconds.insert("index".to_string(), t.elapsed().as_secs_f64());
     let depth = depth_of(&args.k);
@@ -135,6 +148,9 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         .into_iter()
         .map(System::Signal)
         .collect();
+    if args.signals.is_none() {
+        systems.push(System::Fusion);
+    }
     systems.extend([System::Popularity, System::Random]);
     let t = Instant::now();
     let mut reports = Vec::new();
@@ -147,6 +163,11 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
     }
     seconds.insert("queries".to_string(), t.elapsed().as_secs_f64());
     let mut report_settings = BTreeMap::new();
+    for key in ["fusion", "dense", "training"] {
+        if let Some(v) = index.generation.manifest.settings.get(key) {
+            report_settings.insert(key.to_string(), v.clone());
+        }
+    }
     report_settings.insert(
         "lexical_boosts".to_string(),
         serde_json::to_value(index.lexical_boosts)?,

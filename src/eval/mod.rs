@@ -31,6 +31,8 @@ use split::Split;
 pub enum System {
     /// One retrieval signal alone.
     Signal(Signal),
+    /// Every signal, fused with the index's weights (what `rank` gives by default).
+    Fusion,
     /// Premises ranked by how many training proofs use them.
     Popularity,
     /// Accessible premises in a seeded random order.
@@ -42,6 +44,7 @@ impl System {
     pub fn name(&self) -> String {
         match self {
             System::Signal(s) => s.as_str().to_string(),
+            System::Fusion => "fusion".into(),
             System::Popularity => "popularity".into(),
             System::Random => "random".into(),
         }
@@ -119,13 +122,16 @@ pub fn run_system(
     for q in queries {
         let started = Instant::now();
         let ranked: Vec<(DeclId, f32)> = match system {
-            System::Signal(signal) => {
+            System::Signal(_) | System::Fusion => {
                 let request = RankRequest {
                     goal: q.goal.clone(),
                     limit: depth,
                     place: Some(q.place.clone()),
                     kinds: None,
-                    signals: Some(vec![signal]),
+                    signals: match system {
+                        System::Signal(signal) => Some(vec![signal]),
+                        _ => None,
+                    },
                     all_goals: false,
                     explain: false,
                 };
@@ -204,4 +210,58 @@ pub fn summarise(name: &str, queries: &[EvalQuery], runs: &[QueryRun], ks: &[usi
     m.latency_median_ms = metrics::quantile(&latencies, 0.5);
     m.latency_p99_ms = metrics::quantile(&latencies, 0.99);
     m
+}
+
+/// The most validation queries the fusion is tuned on (an even spread of the validation
+/// theorems when there are more).
+pub const TUNING_QUERIES: usize = 1_000;
+
+/// Chooses the fusion weights of `index` on the theorems `validation` (never test
+/// theorems): each signal ranks every query [`FUSION_DEPTH`](crate::retrieve::FUSION_DEPTH)
+/// deep through [`rank`], and [`grid_search`](crate::retrieve::fusion::grid_search) picks
+/// the weights by recall@10. Signals the index lacks (dense, built with `--dense off`) are
+/// left out.
+pub fn tune_fusion(
+    index: &OpenIndex,
+    validation: &[DeclId],
+) -> Result<crate::retrieve::fusion::FusionTuning, EvalError> {
+    use crate::retrieve::fusion::{grid_search, TuningQuery};
+    let step = validation.len().div_ceil(TUNING_QUERIES).max(1);
+    let chosen: Vec<DeclId> = validation.iter().copied().step_by(step).collect();
+    let queries = queries::statement_queries(&index.library, &chosen);
+    let signals: Vec<Signal> = Signal::ALL
+        .into_iter()
+        .filter(|s| *s != Signal::Dense || index.dense.is_some())
+        .collect();
+    let mut tuning = Vec::with_capacity(queries.len());
+    for q in &queries {
+        let mut lists = Vec::with_capacity(signals.len());
+        for &signal in &signals {
+            let request = RankRequest {
+                goal: q.goal.clone(),
+                limit: crate::retrieve::FUSION_DEPTH,
+                place: Some(q.place.clone()),
+                kinds: None,
+                signals: Some(vec![signal]),
+                all_goals: false,
+                explain: false,
+            };
+            let list = match rank(index, &request) {
+                Ok(r) => r.premises.iter().map(|p| p.id).collect(),
+                Err(RankError::NoTerms) | Err(RankError::Goal(_)) => Vec::new(),
+                Err(source) => {
+                    return Err(EvalError::Rank {
+                        theorem: index.library.declaration(q.theorem).name.clone(),
+                        source,
+                    })
+                }
+            };
+            lists.push(list);
+        }
+        tuning.push(TuningQuery {
+            lists,
+            relevant: q.relevant.clone(),
+        });
+    }
+    Ok(grid_search(&signals, &tuning, index.fusion.k))
 }

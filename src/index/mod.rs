@@ -1,10 +1,15 @@
 //! The index: the parts built from the library model that retrieval reads, and the opened
 //! index that serves queries.
 //!
-//! Takes a [`Library`]; gives, inside a generation folder, the library model and the lexical
-//! index (tantivy), and opens them again as an [`OpenIndex`] — the one value the command
-//! line, the server and evaluation query. It reads no source files and ranks nothing.
+//! Takes a [`Library`] and a [`BuildConfig`] (which theorems' proofs may be learned from,
+//! whether to train the dense encoder, how to choose the fusion weights); gives, inside a
+//! generation folder, the library model, the lexical index (tantivy), the dense part
+//! (encoder and vectors), the votable theorems of the neighbour signal and the fusion
+//! weights, and opens them again as an [`OpenIndex`] — the one value the command line, the
+//! server and evaluation query. It reads no source files; it ranks only through the tuner
+//! its caller hands it.
 
+pub mod dense;
 pub mod lexical;
 
 use std::collections::BTreeMap;
@@ -12,10 +17,15 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::Instant;
 
-use crate::library::store::{self, Generation, GenerationWriter, StoreError};
-use crate::library::{Library, NotationInfo};
+use crate::dense::seeded::SplitMix64;
+use crate::dense::DenseError;
+use crate::library::store::{self, Generation, GenerationWriter, Manifest, StoreError};
+use crate::library::{DeclId, DeclKind, Library, NotationInfo, ProofEnding};
 use crate::retrieve::accessible::{accessible_premises, PremiseFilter};
+use crate::retrieve::fusion::{FusionTuning, FusionWeights};
+use crate::retrieve::neighbours::{PremiseUsage, VoteParams};
 use crate::tokens::Tokenizer;
+use dense::{DenseBuildError, DenseMode, DensePart};
 use lexical::{LexicalError, LexicalIndex, TokenizeFn, LEXICAL_PART};
 
 /// Why an index could not be built or opened.
@@ -25,6 +35,107 @@ pub enum IndexError {
     Store(#[from] StoreError),
     #[error(transparent)]
     Lexical(#[from] LexicalError),
+    #[error(transparent)]
+    DenseBuild(#[from] DenseBuildError),
+    #[error("dense part of the index: {0}")]
+    Dense(#[from] DenseError),
+    #[error("index part `{part}`: {message}")]
+    Part { part: &'static str, message: String },
+    #[error("choosing the fusion weights: {0}")]
+    Tuning(String),
+}
+
+/// The part listing the theorems whose proofs vote in the neighbour signal.
+pub const VOTABLE_PART: &str = "neighbours/votable.bin";
+
+/// Chooses fusion weights on an index being built, given the validation theorems (it runs
+/// the signals, so it lives with the caller: evaluation has the queries and metrics).
+pub type FusionTuner = dyn Fn(&OpenIndex, &[DeclId]) -> Result<FusionTuning, String> + Sync;
+
+/// How the fusion weights of a build are chosen.
+#[derive(Clone, Copy, Default)]
+pub enum FusionChoice<'a> {
+    /// Every signal weighs 1.
+    #[default]
+    Equal,
+    /// These weights.
+    Fixed(&'a FusionWeights),
+    /// By this tuner, on the validation theorems.
+    Tuned(&'a FusionTuner),
+}
+
+/// What a build learns from and how.
+#[derive(Clone, Copy)]
+pub struct BuildConfig<'a> {
+    pub dense: DenseMode,
+    /// The theorems whose proofs may be learned from (dense training, neighbour votes,
+    /// fusion tuning); `None`: every theorem of the library.
+    pub training: Option<&'a [DeclId]>,
+    /// The theorems the fusion is tuned and the encoder validated on, never learned from;
+    /// `None`: a seeded [`VALIDATION_SHARE`] of the eligible training theorems, taken out
+    /// of the training part.
+    pub validation: Option<&'a [DeclId]>,
+    pub fusion: FusionChoice<'a>,
+    /// Seed of the validation split and of the encoder.
+    pub seed: u64,
+}
+
+impl Default for BuildConfig<'_> {
+    fn default() -> Self {
+        BuildConfig {
+            dense: DenseMode::Learned,
+            training: None,
+            validation: None,
+            fusion: FusionChoice::Equal,
+            seed: 1,
+        }
+    }
+}
+
+/// The share of eligible theorems a build holds out for validation when not told which.
+pub const VALIDATION_SHARE: f64 = 0.1;
+
+/// Theorems with a finished proof that uses a premise of the library.
+fn provable_theorems(library: &Library) -> Vec<DeclId> {
+    library
+        .declarations
+        .iter()
+        .filter(|d| {
+            d.kind == DeclKind::Theorem
+                && d.proof_ending != Some(ProofEnding::Admitted)
+                && library.graph.proof_uses.degree(d.id) > 0
+        })
+        .map(|d| d.id)
+        .collect()
+}
+
+/// The (training, validation) theorems of a build, each sorted.
+fn learning_sets(library: &Library, config: &BuildConfig<'_>) -> (Vec<DeclId>, Vec<DeclId>) {
+    let mut training: Vec<DeclId> = match config.training {
+        Some(t) => t
+            .iter()
+            .copied()
+            .filter(|&d| (d.0 as usize) < library.declarations.len())
+            .filter(|&d| library.graph.proof_uses.degree(d) > 0)
+            .collect(),
+        None => provable_theorems(library),
+    };
+    training.sort();
+    training.dedup();
+    let mut validation: Vec<DeclId> = match config.validation {
+        Some(v) => v.to_vec(),
+        None => {
+            let mut order = training.clone();
+            SplitMix64::new(config.seed).fork(7).shuffle(&mut order);
+            let n = (order.len() as f64 * VALIDATION_SHARE).round() as usize;
+            order.truncate(n);
+            order
+        }
+    };
+    validation.sort();
+    validation.dedup();
+    training.retain(|d| validation.binary_search(d).is_err());
+    (training, validation)
 }
 
 /// The most words one library-defined symbol teaches.
@@ -85,28 +196,121 @@ pub fn tokenize_fn(tokenizer: Arc<Tokenizer>) -> TokenizeFn {
 #[derive(Clone, Debug, Default, serde::Serialize)]
 pub struct BuildTimings {
     pub lexical_seconds: f64,
+    /// Training the encoder and encoding every declaration (0 without the dense part).
+    pub dense_seconds: f64,
+    /// Choosing the fusion weights (0 unless tuned).
+    pub tuning_seconds: f64,
     pub write_seconds: f64,
 }
 
-/// Writes a new generation of `index_dir` holding `library` and every index part, and makes
-/// it live. `settings` are recorded in the manifest.
+/// Writes a new generation of `index_dir` holding `library` and every index part with the
+/// default [`BuildConfig`] (learned dense part, every theorem learned from but a held-out
+/// validation share, equal fusion weights), and makes it live.
 pub fn build_index(
     index_dir: &Path,
     library: &Library,
     settings: BTreeMap<String, serde_json::Value>,
+) -> Result<(PathBuf, BuildTimings), IndexError> {
+    build_index_with(index_dir, library, settings, &BuildConfig::default())
+}
+
+/// Writes a new generation of `index_dir` holding `library` and every index part as
+/// `config` says, and makes it live. `settings` are recorded in the manifest, with the
+/// dense training figures (`dense`), the learning sets' sizes (`training`) and the fusion
+/// weights (`fusion`) added.
+pub fn build_index_with(
+    index_dir: &Path,
+    library: &Library,
+    mut settings: BTreeMap<String, serde_json::Value>,
+    config: &BuildConfig<'_>,
 ) -> Result<(PathBuf, BuildTimings), IndexError> {
     let inputs: String = library.files.iter().map(|f| f.content_hash.as_str()).collect();
     let mut writer = GenerationWriter::create(index_dir, &inputs)?;
     let mut timings = BuildTimings::default();
     let started = Instant::now();
     let tokenizer = Arc::new(library_tokenizer(library));
-    lexical::build(
-        library,
-        tokenize_fn(tokenizer),
-        &writer.staging_dir().join(LEXICAL_PART),
-    )?;
+    let lexical_dir = writer.staging_dir().join(LEXICAL_PART);
+    lexical::build(library, tokenize_fn(tokenizer.clone()), &lexical_dir)?;
     writer.record_folder(LEXICAL_PART)?;
+    let lexical = LexicalIndex::open(
+        &lexical_dir,
+        tokenize_fn(tokenizer.clone()),
+        library.declarations.len(),
+    )?;
     timings.lexical_seconds = started.elapsed().as_secs_f64();
+
+    let (training, validation) = learning_sets(library, config);
+    settings.insert(
+        "training".to_string(),
+        serde_json::json!({
+            "learned_from": if config.training.is_some() { "given theorems" } else { "all theorems" },
+            "training_theorems": training.len(),
+            "validation_theorems": validation.len(),
+            "seed": config.seed,
+        }),
+    );
+    let started = Instant::now();
+    let dense = match config.dense {
+        DenseMode::Off => {
+            settings.insert("dense".to_string(), serde_json::json!({ "mode": "off" }));
+            None
+        }
+        DenseMode::Learned => {
+            let (part, summary) =
+                dense::build_dense(library, &tokenizer, &lexical, &training, &validation, config.seed)?;
+            part.save(&mut writer)?;
+            let mut value = serde_json::to_value(&summary).unwrap_or_default();
+            if let Some(map) = value.as_object_mut() {
+                map.insert("mode".into(), serde_json::json!("learned"));
+                map.insert("encoder".into(), serde_json::json!("hashed features, InfoNCE"));
+            }
+            settings.insert("dense".to_string(), value);
+            Some(part)
+        }
+    };
+    timings.dense_seconds = started.elapsed().as_secs_f64();
+    let votable: Vec<u32> = training.iter().map(|d| d.0).collect();
+    let votable_bytes = postcard::to_stdvec(&votable).map_err(|e| IndexError::Part {
+        part: VOTABLE_PART,
+        message: format!("cannot encode: {e}"),
+    })?;
+    writer.write_part(VOTABLE_PART, &votable_bytes)?;
+
+    let started = Instant::now();
+    let fusion = match config.fusion {
+        FusionChoice::Equal => serde_json::json!({ "weights": FusionWeights::default(), "chosen": "equal" }),
+        FusionChoice::Fixed(w) => serde_json::json!({ "weights": w, "chosen": "given" }),
+        FusionChoice::Tuned(tuner) => {
+            let provisional = Generation {
+                dir: writer.staging_dir().to_path_buf(),
+                manifest: Manifest {
+                    format: store::FORMAT_NAME.to_string(),
+                    format_version: store::FORMAT_VERSION,
+                    quarry_version: env!("CARGO_PKG_VERSION").to_string(),
+                    build_id: writer.build_id().to_string(),
+                    created: String::new(),
+                    settings: settings.clone(),
+                    files: Vec::new(),
+                    counts: store::Counts::of(library),
+                    parts: BTreeMap::new(),
+                },
+            };
+            let open = OpenIndex::assemble(
+                index_dir,
+                provisional,
+                library.clone(),
+                tokenizer.clone(),
+                lexical,
+                dense,
+                training.clone(),
+                FusionWeights::default(),
+            );
+            let tuning = tuner(&open, &validation).map_err(IndexError::Tuning)?;
+            serde_json::json!({ "weights": tuning.weights, "chosen": "tuned", "tuning": tuning })
+        }
+    };
+    settings.insert("fusion".to_string(), fusion);
+    timings.tuning_seconds = started.elapsed().as_secs_f64();
     let started = Instant::now();
     writer.write_library(library)?;
     let gen = writer.commit(library, settings)?;
@@ -127,6 +331,17 @@ pub struct OpenIndex {
     pub default_candidates: Arc<PremiseFilter>,
     /// Field boosts of the lexical query (evaluation's tuning changes them between runs).
     pub lexical_boosts: lexical::FieldBoosts,
+    /// The learned encoder and every declaration's vector, unless built with `--dense off`.
+    pub dense: Option<DensePart>,
+    /// The theorems whose proofs vote in the neighbour signal (sorted): the build's
+    /// training part, never a held-out theorem.
+    pub votable: Vec<DeclId>,
+    /// How often each premise is used by a votable proof.
+    pub usage: PremiseUsage,
+    /// Parameters of the neighbour vote.
+    pub vote_params: VoteParams,
+    /// The weights of the fusion of all signals.
+    pub fusion: FusionWeights,
 }
 
 impl OpenIndex {
@@ -141,12 +356,59 @@ impl OpenIndex {
             tokenize_fn(tokenizer.clone()),
             library.declarations.len(),
         )?;
+        let dense = DensePart::load(&generation, library.declarations.len())?;
+        let votable = if generation.manifest.parts.contains_key(VOTABLE_PART) {
+            let bytes = generation.read_part(VOTABLE_PART)?;
+            let ids: Vec<u32> = postcard::from_bytes(&bytes).map_err(|e| IndexError::Part {
+                part: VOTABLE_PART,
+                message: format!("not a list of declaration ids: {e}"),
+            })?;
+            if let Some(bad) = ids.iter().find(|&&i| i as usize >= library.declarations.len()) {
+                return Err(IndexError::Part {
+                    part: VOTABLE_PART,
+                    message: format!(
+                        "names declaration {bad}, the library has {}",
+                        library.declarations.len()
+                    ),
+                });
+            }
+            ids.into_iter().map(DeclId).collect()
+        } else {
+            Vec::new()
+        };
+        let fusion = generation
+            .manifest
+            .settings
+            .get("fusion")
+            .and_then(|f| f.get("weights"))
+            .and_then(|w| serde_json::from_value(w.clone()).ok())
+            .unwrap_or_default();
+        Ok(OpenIndex::assemble(
+            index_dir, generation, library, tokenizer, lexical, dense, votable, fusion,
+        ))
+    }
+
+    /// An index from parts already in memory (the build tunes the fusion on one).
+    #[allow(clippy::too_many_arguments)]
+    pub fn assemble(
+        index_dir: &Path,
+        generation: Generation,
+        library: Library,
+        tokenizer: Arc<Tokenizer>,
+        lexical: LexicalIndex,
+        dense: Option<DensePart>,
+        mut votable: Vec<DeclId>,
+        fusion: FusionWeights,
+    ) -> OpenIndex {
+        votable.sort();
+        votable.dedup();
         let default_candidates = Arc::new(accessible_premises(
             &library,
             None,
             Some(&crate::retrieve::DEFAULT_KINDS),
         ));
-        Ok(OpenIndex {
+        let usage = PremiseUsage::count(&library.graph, library.declarations.len(), &votable);
+        OpenIndex {
             dir: index_dir.to_path_buf(),
             generation,
             library,
@@ -154,7 +416,17 @@ impl OpenIndex {
             lexical,
             default_candidates,
             lexical_boosts: lexical::FieldBoosts::default(),
-        })
+            dense,
+            votable,
+            usage,
+            vote_params: VoteParams::default(),
+            fusion,
+        }
+    }
+
+    /// Whether `id`'s proof votes in the neighbour signal.
+    pub fn is_votable(&self, id: DeclId) -> bool {
+        self.votable.binary_search(&id).is_ok()
     }
 
     /// The build id of the generation being served.

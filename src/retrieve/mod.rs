@@ -2,21 +2,29 @@
 //!
 //! Takes an [`OpenIndex`] and a [`RankRequest`]; gives a [`PremiseRanking`]: the goal as it
 //! was understood, and the premises best first with the evidence of each signal. The
-//! command line, the server and evaluation all call [`rank`]; none of them ranks by itself.
-//! It never reads source files and never writes anything.
+//! signals are BM25 ([`Signal::Lexical`]), the learned encoder's nearest premises
+//! ([`Signal::Dense`]) and the votes of similar theorems' proofs ([`Signal::Neighbours`]);
+//! several are combined by reciprocal rank fusion ([`fusion`]). The command line, the
+//! server and evaluation all call [`rank`]; none of them ranks by itself. It never reads
+//! source files and never writes anything.
 
 pub mod accessible;
+pub mod fusion;
+pub mod neighbours;
 
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
 use serde::{Deserialize, Serialize};
 
+use crate::dense::Encoder;
 use crate::index::lexical::LexicalError;
 use crate::index::OpenIndex;
 use crate::library::{DeclId, DeclKind};
 use crate::query::{parse_goal, GoalError, GoalSelection, GoalState, QueryTerm};
-use accessible::{accessible_premises, QueryPlace};
+use accessible::{accessible_premises, PremiseFilter, QueryPlace};
+use fusion::reciprocal_rank_fusion;
+use neighbours::neighbour_votes;
 
 /// The most premises one request may ask for.
 pub const MAX_LIMIT: usize = 200;
@@ -41,16 +49,22 @@ pub const DEFAULT_KINDS: [DeclKind; 8] = [
 pub enum Signal {
     /// BM25 over quarry's math-aware tokens (tantivy).
     Lexical,
+    /// Cosine of the learned encoder's goal and premise vectors.
+    Dense,
+    /// Votes of the proofs of the theorems most similar to the goal.
+    Neighbours,
 }
 
 impl Signal {
     /// Every signal this build of quarry has.
-    pub const ALL: [Signal; 1] = [Signal::Lexical];
+    pub const ALL: [Signal; 3] = [Signal::Lexical, Signal::Dense, Signal::Neighbours];
 
     /// The name used on the command line and in JSON.
     pub fn as_str(self) -> &'static str {
         match self {
             Signal::Lexical => "lexical",
+            Signal::Dense => "dense",
+            Signal::Neighbours => "neighbours",
         }
     }
 
@@ -113,6 +127,8 @@ pub struct RankedPremise {
     pub evidence: Vec<SignalEvidence>,
     /// With `explain`: the query's tokens found in the premise's name or statement.
     pub matched_terms: Vec<String>,
+    /// With `explain`: the neighbour theorems whose proofs voted for it, strongest first.
+    pub voters: Vec<DeclId>,
 }
 
 /// The answer to a [`RankRequest`].
@@ -150,7 +166,18 @@ impl RankError {
     }
 }
 
+/// How deep each signal looks before the fusion: deeper than any limit, so a premise that
+/// two signals rank 60th and 80th can still make the fused top 20.
+pub const FUSION_DEPTH: usize = 100;
+
+/// One signal's list: (premise, score, voters) best first.
+type SignalList = Vec<(DeclId, f32, Vec<DeclId>)>;
+
 /// Ranks the premises of `index` for `request`.
+///
+/// One signal selected: its own list. Several (or `signals: None`, all): each looks
+/// [`FUSION_DEPTH`] deep and the lists are fused by reciprocal rank fusion with the
+/// index's weights; every premise carries each signal's rank and score.
 pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, RankError> {
     let started = Instant::now();
     if request.limit == 0 || request.limit > MAX_LIMIT {
@@ -180,24 +207,96 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
         )),
     };
     let candidates = filter.count();
-    let mut premises = Vec::new();
-    if signals.contains(&Signal::Lexical) {
-        let hits = index
-            .lexical
-            .search(&terms, &index.lexical_boosts, Some(filter), request.limit)?;
-        for (i, (id, score)) in hits.into_iter().enumerate() {
-            premises.push(RankedPremise {
-                id,
-                score,
-                evidence: vec![SignalEvidence {
-                    signal: Signal::Lexical,
-                    rank: i as u32 + 1,
-                    score,
-                }],
-                matched_terms: Vec::new(),
-            });
+    let mut selected: Vec<Signal> = Vec::new();
+    for s in signals {
+        if !selected.contains(s) {
+            selected.push(*s);
         }
     }
+    let fused = selected.len() > 1;
+    let depth = if fused {
+        FUSION_DEPTH.max(request.limit)
+    } else {
+        request.limit
+    };
+    let goal_vector = index.dense.as_ref().map(|d| {
+        let tokens: Vec<&str> = terms.iter().map(|t| t.text.as_str()).collect();
+        d.encoder.encode_goal(&tokens)
+    });
+    let mut lists: Vec<(Signal, SignalList)> = Vec::new();
+    for &signal in &selected {
+        let list: SignalList = match signal {
+            Signal::Lexical => index
+                .lexical
+                .search(&terms, &index.lexical_boosts, Some(filter.clone()), depth)?
+                .into_iter()
+                .map(|(id, s)| (id, s, Vec::new()))
+                .collect(),
+            Signal::Dense => match (&index.dense, &goal_vector) {
+                (Some(d), Some(v)) => d
+                    .search_allowed(v, &filter, depth)
+                    .into_iter()
+                    .map(|(id, s)| (id, s, Vec::new()))
+                    .collect(),
+                _ => Vec::new(),
+            },
+            Signal::Neighbours => {
+                let near = nearest_theorems(index, &terms, goal_vector.as_deref(), &filter)?;
+                neighbour_votes(
+                    &library.graph,
+                    &index.usage,
+                    &near,
+                    Some(&filter),
+                    &index.vote_params,
+                )
+                .into_iter()
+                .take(depth)
+                .map(|v| (v.id, v.score, v.voters))
+                .collect()
+            }
+        };
+        lists.push((signal, list));
+    }
+    let order: Vec<(DeclId, f32)> = if fused {
+        let ids: Vec<(Vec<DeclId>, f32)> = lists
+            .iter()
+            .map(|(s, l)| (l.iter().map(|x| x.0).collect(), index.fusion.weight(s.as_str())))
+            .collect();
+        let borrowed: Vec<(&[DeclId], f32)> = ids.iter().map(|(l, w)| (l.as_slice(), *w)).collect();
+        reciprocal_rank_fusion(&borrowed, index.fusion.k)
+    } else {
+        lists
+            .first()
+            .map(|(_, l)| l.iter().map(|x| (x.0, x.1)).collect())
+            .unwrap_or_default()
+    };
+    let mut premises: Vec<RankedPremise> = order
+        .into_iter()
+        .take(request.limit)
+        .map(|(id, score)| {
+            let mut evidence = Vec::new();
+            let mut voters = Vec::new();
+            for (signal, list) in &lists {
+                if let Some(pos) = list.iter().position(|x| x.0 == id) {
+                    evidence.push(SignalEvidence {
+                        signal: *signal,
+                        rank: pos as u32 + 1,
+                        score: list[pos].1,
+                    });
+                    if *signal == Signal::Neighbours && request.explain {
+                        voters = list[pos].2.clone();
+                    }
+                }
+            }
+            RankedPremise {
+                id,
+                score,
+                evidence,
+                matched_terms: Vec::new(),
+                voters,
+            }
+        })
+        .collect();
     if request.explain {
         for p in &mut premises {
             p.matched_terms = matched_terms(index, p.id, &terms);
@@ -210,6 +309,38 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
         candidates,
         elapsed: started.elapsed(),
     })
+}
+
+/// The votable theorems nearest the goal among those `allowed` admits, with similarities
+/// in 0..=1: BM25's top (scores over the best one) and the dense signal's top (cosine).
+/// A theorem found by both is listed twice and so votes twice.
+fn nearest_theorems(
+    index: &OpenIndex,
+    terms: &[QueryTerm],
+    goal_vector: Option<&[f32]>,
+    allowed: &PremiseFilter,
+) -> Result<Vec<(DeclId, f32)>, RankError> {
+    let k = index.vote_params.neighbours;
+    let mut voters = PremiseFilter::none(index.library.declarations.len());
+    for &t in &index.votable {
+        if allowed.contains(t) {
+            voters.insert(t);
+        }
+    }
+    let voters = Arc::new(voters);
+    let lexical = index
+        .lexical
+        .search(terms, &index.lexical_boosts, Some(voters.clone()), k)?;
+    let top = lexical.first().map_or(1.0, |h| h.1.max(f32::MIN_POSITIVE));
+    let mut near: Vec<(DeclId, f32)> = lexical.into_iter().map(|(id, s)| (id, s / top)).collect();
+    if let (Some(d), Some(v)) = (&index.dense, goal_vector) {
+        near.extend(
+            d.search_allowed(v, &voters, k)
+                .into_iter()
+                .map(|(id, s)| (id, s.max(0.0))),
+        );
+    }
+    Ok(near)
 }
 
 /// The query tokens that occur in a premise's name or statement, in query order.

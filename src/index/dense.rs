@@ -1,0 +1,334 @@
+//! The dense part of an index: the learned encoder trained on the library's own proofs,
+//! and every declaration's vector in a [`VectorIndex`].
+//!
+//! Takes the library, the shared tokenizer, the lexical index (for hard negatives: BM25's
+//! near misses for a theorem's statement that its proof does not use), and the theorems
+//! whose proofs may be learned from; gives a [`DensePart`] (row `i` of the vectors is
+//! declaration `i`) with its training figures, and saves and loads it through a generation.
+//! It never looks at a proof outside the training set and does not rank anything.
+
+use std::collections::HashSet;
+use std::sync::Arc;
+use std::time::Instant;
+
+use serde::Serialize;
+
+use crate::dense::{
+    load_encoder, save_encoder, train, DenseError, EncoderSettings, IndexParams, LearnedEncoder,
+    TrainConfig, TrainingData, TrainingPair, Validation, VectorIndex, VectorSet,
+};
+use crate::library::store::{Generation, GenerationWriter};
+use crate::library::{DeclId, Library};
+use crate::query::{parse_goal, GoalSelection, QueryTerm};
+use crate::retrieve::accessible::PremiseFilter;
+use crate::tokens::Tokenizer;
+
+use super::lexical::{local_name, LexicalError, LexicalIndex};
+
+/// Whether an index gets the dense signal.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DenseMode {
+    /// Train the learned hashed-feature encoder on the library's proofs.
+    Learned,
+    /// No dense signal (and neighbours found by the lexical signal only).
+    Off,
+}
+
+/// BM25 hits looked at per training theorem when choosing hard negatives.
+const NEGATIVE_POOL: usize = 8;
+/// Hard negatives kept per training pair.
+const NEGATIVES_PER_PAIR: usize = 3;
+/// Validation goals the trainer measures recall on (an exact scan per epoch each).
+const VALIDATION_GOALS: usize = 300;
+
+/// The encoder settings quarry builds with: smaller than the trainer's defaults, so the
+/// Coq standard library trains in seconds on two cores (2^16 buckets of 64 dimensions is
+/// 16 MiB per table).
+pub fn build_encoder_settings(seed: u64) -> EncoderSettings {
+    EncoderSettings {
+        buckets: 1 << 16,
+        dim: 64,
+        seed,
+    }
+}
+
+/// The encoder and the declarations' vectors.
+pub struct DensePart {
+    pub encoder: LearnedEncoder,
+    /// Row `i` is declaration `i`'s premise-side vector.
+    pub vectors: VectorIndex,
+}
+
+/// What training did, for the manifest and `quarry inspect`.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, serde::Deserialize)]
+pub struct DenseSummary {
+    pub buckets: u32,
+    pub dim: u32,
+    pub goals: usize,
+    pub pairs: usize,
+    pub hard_negatives: usize,
+    /// Mean InfoNCE loss of each epoch.
+    pub epoch_loss: Vec<f64>,
+    /// Recall@10 of the validation goals before training, then after each epoch.
+    pub validation_recall: Vec<f64>,
+    pub validation_goals: usize,
+    /// `exact` or `hnsw`.
+    pub vector_index: String,
+    pub train_seconds: f64,
+    pub encode_seconds: f64,
+}
+
+/// Why the dense part could not be built.
+#[derive(Debug, thiserror::Error)]
+pub enum DenseBuildError {
+    #[error("dense part: {0}")]
+    Dense(#[from] DenseError),
+    #[error("dense part, choosing hard negatives: {0}")]
+    Lexical(#[from] LexicalError),
+}
+
+/// The query terms of a theorem's statement read as a goal, as a pasted goal is read
+/// (empty when it does not parse).
+pub fn goal_terms(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<QueryTerm> {
+    let d = library.declaration(id);
+    parse_goal(&d.statement)
+        .map(|goal| goal.query_terms(tokenizer, GoalSelection::First))
+        .unwrap_or_default()
+}
+
+/// The goal-side tokens of a theorem: the texts of [`goal_terms`].
+pub fn goal_tokens(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<String> {
+    goal_terms(library, tokenizer, id).into_iter().map(|t| t.text).collect()
+}
+
+/// The premise-side tokens of a declaration: its local name and statement, as the lexical
+/// `text` field.
+pub fn premise_tokens(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<String> {
+    let d = library.declaration(id);
+    let mut out: Vec<String> = tokenizer
+        .tokenize(local_name(library, id))
+        .texts()
+        .map(str::to_string)
+        .collect();
+    out.extend(tokenizer.tokenize(&d.statement).texts().map(str::to_string));
+    out
+}
+
+/// The training data: one goal per training theorem whose proof uses a premise, one pair
+/// per premise used, and BM25 hard negatives. Only theorems in `training` appear.
+pub fn training_data(
+    library: &Library,
+    tokenizer: &Tokenizer,
+    lexical: &LexicalIndex,
+    training: &[DeclId],
+    premises: Vec<Vec<String>>,
+) -> Result<(TrainingData, Vec<DeclId>), LexicalError> {
+    let mut data = TrainingData {
+        premises,
+        ..TrainingData::default()
+    };
+    let mut goal_ids = Vec::new();
+    for &t in training {
+        if library.graph.proof_uses.degree(t) == 0 {
+            continue;
+        }
+        let terms = goal_terms(library, tokenizer, t);
+        if terms.is_empty() {
+            continue;
+        }
+        let tokens: Vec<String> = terms.iter().map(|t| t.text.clone()).collect();
+        let used: HashSet<DeclId> = library.graph.premises(t).collect();
+        let negatives: Vec<u32> = lexical
+            .search(&terms, &super::lexical::FieldBoosts::default(), None, NEGATIVE_POOL)?
+            .into_iter()
+            .map(|h| h.0)
+            .filter(|d| *d != t && !used.contains(d))
+            .take(NEGATIVES_PER_PAIR)
+            .map(|d| d.0)
+            .collect();
+        let goal = data.goals.len() as u32;
+        data.goals.push(tokens);
+        goal_ids.push(t);
+        let mut used: Vec<DeclId> = used.into_iter().collect();
+        used.sort();
+        for p in used {
+            data.pairs.push(TrainingPair {
+                goal,
+                premise: p.0,
+            });
+            data.hard_negatives.push(negatives.clone());
+        }
+    }
+    Ok((data, goal_ids))
+}
+
+/// Trains the encoder on the proofs of `training`, measures recall@10 on (up to 300 of)
+/// `validation`, encodes every declaration and indexes the vectors.
+pub fn build_dense(
+    library: &Library,
+    tokenizer: &Arc<Tokenizer>,
+    lexical: &LexicalIndex,
+    training: &[DeclId],
+    validation: &[DeclId],
+    seed: u64,
+) -> Result<(DensePart, DenseSummary), DenseBuildError> {
+    let started = Instant::now();
+    let premises: Vec<Vec<String>> = library
+        .declarations
+        .iter()
+        .map(|d| premise_tokens(library, tokenizer, d.id))
+        .collect();
+    let (data, goal_ids) = training_data(library, tokenizer, lexical, training, premises)?;
+    let mut check = Validation {
+        k: 10,
+        ..Validation::default()
+    };
+    for &v in validation.iter().take(VALIDATION_GOALS) {
+        let tokens = goal_tokens(library, tokenizer, v);
+        if tokens.is_empty() || library.graph.proof_uses.degree(v) == 0 {
+            continue;
+        }
+        let goal = check.goals.len() as u32;
+        check.goals.push(tokens);
+        for p in library.graph.premises(v) {
+            check.pairs.push(TrainingPair {
+                goal,
+                premise: p.0,
+            });
+        }
+    }
+    let config = TrainConfig {
+        encoder: build_encoder_settings(seed),
+        seed,
+        ..TrainConfig::default()
+    };
+    let (encoder, report) = train(&data, &config, (!check.pairs.is_empty()).then_some(&check))?;
+    let train_seconds = started.elapsed().as_secs_f64();
+    let started = Instant::now();
+    let rows: Vec<Vec<f32>> = data
+        .premises
+        .iter()
+        .map(|p| encoder.encode_premise_tokens(p))
+        .collect();
+    let vectors = VectorIndex::build(
+        VectorSet::from_rows(config.encoder.dim as usize, &rows)?,
+        &IndexParams::default(),
+    )?;
+    let mut validation_recall: Vec<f64> = report.initial_validation_recall.into_iter().collect();
+    validation_recall.extend(report.epochs.iter().filter_map(|e| e.validation_recall));
+    let summary = DenseSummary {
+        buckets: config.encoder.buckets,
+        dim: config.encoder.dim,
+        goals: goal_ids.len(),
+        pairs: data.pairs.len(),
+        hard_negatives: data.hard_negatives.iter().map(Vec::len).sum(),
+        epoch_loss: report.epochs.iter().map(|e| e.mean_loss).collect(),
+        validation_recall,
+        validation_goals: check.goals.len(),
+        vector_index: match vectors {
+            VectorIndex::Exact(_) => "exact".into(),
+            VectorIndex::Hnsw(_) => "hnsw".into(),
+        },
+        train_seconds,
+        encode_seconds: started.elapsed().as_secs_f64(),
+    };
+    Ok((DensePart { encoder, vectors }, summary))
+}
+
+impl DensePart {
+    /// Writes the encoder and the vectors into the generation being built.
+    pub fn save(&self, writer: &mut GenerationWriter) -> Result<(), DenseError> {
+        save_encoder(writer, &self.encoder)?;
+        self.vectors.save(writer)
+    }
+
+    /// Reads the dense part of `generation`, or `None` when it was built without one.
+    /// The vectors must be one per declaration (`declarations`).
+    pub fn load(generation: &Generation, declarations: usize) -> Result<Option<DensePart>, DenseError> {
+        if !generation.manifest.parts.contains_key(crate::dense::index::ENCODER_PART) {
+            return Ok(None);
+        }
+        let encoder = load_encoder(generation)?;
+        let vectors = VectorIndex::load(generation)?;
+        if vectors.vectors().len() != declarations {
+            return Err(DenseError::BadVector {
+                what: "dense vectors".into(),
+                message: format!(
+                    "{} vectors for {declarations} declarations",
+                    vectors.vectors().len()
+                ),
+            });
+        }
+        Ok(Some(DensePart { encoder, vectors }))
+    }
+
+    /// The `n` declarations nearest to `goal` (already encoded) among those `allowed`
+    /// admits, best first: the search goes deeper (doubling) until it has `n` allowed hits
+    /// or has seen every vector.
+    pub fn search_allowed(&self, goal: &[f32], allowed: &PremiseFilter, n: usize) -> Vec<(DeclId, f32)> {
+        let total = self.vectors.vectors().len();
+        if n == 0 || total == 0 || goal.iter().all(|x| *x == 0.0) {
+            return Vec::new();
+        }
+        let mut depth = (n * 4).min(total);
+        loop {
+            let hits: Vec<(DeclId, f32)> = self
+                .vectors
+                .search(goal, depth)
+                .into_iter()
+                .map(|(i, s)| (DeclId(i), s))
+                .filter(|(d, _)| allowed.contains(*d))
+                .take(n)
+                .collect();
+            if hits.len() >= n || depth >= total {
+                return hits;
+            }
+            depth = (depth * 4).min(total);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::dense::ExactIndex;
+
+    fn unit(v: &[f32]) -> Vec<f32> {
+        let n = v.iter().map(|x| x * x).sum::<f32>().sqrt();
+        v.iter().map(|x| x / n).collect()
+    }
+
+    /// Five vectors around a circle; the goal points at 0. With 0 and 1 forbidden the
+    /// answers are the next nearest allowed (exact cosine order, worked by hand:
+    /// cos(0°)=1 > cos(30°) > cos(60°) > cos(90°)=0 > cos(120°)).
+    #[test]
+    fn dense_search_keeps_only_allowed_and_goes_deeper() {
+        let angles = [0f32, 30.0, 60.0, 90.0, 120.0];
+        let rows: Vec<Vec<f32>> = angles
+            .iter()
+            .map(|a| unit(&[a.to_radians().cos(), a.to_radians().sin()]))
+            .collect();
+        let part = DensePart {
+            encoder: LearnedEncoder::initial(
+                EncoderSettings { buckets: 8, dim: 2, seed: 1 },
+                &[vec!["ledger".to_string()]],
+            )
+            .expect("tiny encoder"),
+            vectors: VectorIndex::Exact(ExactIndex::new(
+                VectorSet::from_rows(2, &rows).expect("rows"),
+            )),
+        };
+        let mut allowed = PremiseFilter::all(5);
+        allowed.remove(DeclId(0));
+        allowed.remove(DeclId(1));
+        let hits = part.search_allowed(&[1.0, 0.0], &allowed, 2);
+        let ids: Vec<u32> = hits.iter().map(|h| h.0 .0).collect();
+        assert_eq!(ids, vec![2, 3]);
+        let mut only_last = PremiseFilter::none(5);
+        only_last.insert(DeclId(4));
+        let hits = part.search_allowed(&[1.0, 0.0], &only_last, 1);
+        assert_eq!(hits.len(), 1, "a search deeper than the first fetch finds it");
+        assert_eq!(hits[0].0, DeclId(4));
+    }
+}

@@ -1,0 +1,202 @@
+//! Dependency-neighbour votes: premises used by the proofs of theorems similar to the goal.
+//!
+//! Takes the goal's nearest theorems (from the lexical and dense signals, with their
+//! similarities) and the dependency graph; gives premises scored by the votes of those
+//! neighbours. This is k-nearest-neighbour premise selection (Kaliszyk & Urban; Blanchette
+//! et al., "A learning-based fact selector for Isabelle/HOL", JAR 2016): each neighbour
+//! votes for the premises its proof used, weighted by its similarity to the goal, and a
+//! premise that almost every proof uses is damped by its inverse document frequency over
+//! the voting proofs. The neighbours themselves are candidates too. Only proofs the index
+//! may learn from (its votable set) vote, and only allowed premises are scored. It does not
+//! find the neighbours itself: the caller runs the signals that do.
+
+use std::collections::HashMap;
+
+use serde::{Deserialize, Serialize};
+
+use crate::library::{DeclId, DependencyGraph};
+use crate::retrieve::accessible::PremiseFilter;
+
+/// Parameters of the vote.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct VoteParams {
+    /// How many neighbours each neighbour-finding signal contributes.
+    pub neighbours: usize,
+    /// Similarity exponent: above 1 favours the closest neighbours.
+    pub sharpness: f32,
+    /// A neighbour's own score, as a fraction of its similarity.
+    pub self_weight: f32,
+}
+
+impl Default for VoteParams {
+    /// Our defaults (common practice for k-NN selectors: a few dozen neighbours, votes
+    /// sharpened towards the closest).
+    fn default() -> VoteParams {
+        VoteParams {
+            neighbours: 40,
+            sharpness: 2.0,
+            self_weight: 0.5,
+        }
+    }
+}
+
+/// How often each declaration is used by a voting proof, and how many voting proofs there
+/// are: the inverse document frequency of premises.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct PremiseUsage {
+    uses: Vec<u32>,
+    proofs: u32,
+}
+
+impl PremiseUsage {
+    /// Counts uses over the proofs of `voters` in `graph` (of `nodes` declarations).
+    pub fn count(graph: &DependencyGraph, nodes: usize, voters: &[DeclId]) -> PremiseUsage {
+        let mut uses = vec![0u32; nodes];
+        let mut proofs = 0;
+        for &d in voters {
+            if graph.proof_uses.degree(d) == 0 {
+                continue;
+            }
+            proofs += 1;
+            for p in graph.premises(d) {
+                if let Some(u) = uses.get_mut(p.0 as usize) {
+                    *u += 1;
+                }
+            }
+        }
+        PremiseUsage { uses, proofs }
+    }
+
+    /// ln(1 + proofs / uses): large for rare premises, near 0 for ubiquitous ones.
+    pub fn idf(&self, id: DeclId) -> f32 {
+        let u = self.uses(id).max(1) as f32;
+        (1.0 + self.proofs as f32 / u).ln()
+    }
+
+    /// How many voting proofs use `id`.
+    pub fn uses(&self, id: DeclId) -> u32 {
+        self.uses.get(id.0 as usize).copied().unwrap_or(0)
+    }
+}
+
+/// One premise scored by the vote, with the neighbours that voted for it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct VotedPremise {
+    pub id: DeclId,
+    pub score: f32,
+    /// The neighbours whose proofs use it, strongest vote first.
+    pub voters: Vec<DeclId>,
+}
+
+/// Scores premises by the votes of `neighbours` ((theorem, similarity in 0..=1), any
+/// order; a theorem listed twice votes twice). Returns the premises best first, ties
+/// broken by id.
+pub fn neighbour_votes(
+    graph: &DependencyGraph,
+    usage: &PremiseUsage,
+    neighbours: &[(DeclId, f32)],
+    allowed: Option<&PremiseFilter>,
+    params: &VoteParams,
+) -> Vec<VotedPremise> {
+    let mut scores: HashMap<DeclId, (f32, Vec<(DeclId, f32)>)> = HashMap::new();
+    let ok = |id: DeclId| allowed.is_none_or(|f| f.contains(id));
+    for &(n, sim) in neighbours {
+        if !(sim > 0.0) {
+            continue;
+        }
+        let w = sim.powf(params.sharpness);
+        if ok(n) && params.self_weight > 0.0 {
+            scores.entry(n).or_default().0 += w * params.self_weight * usage.idf(n);
+        }
+        for p in graph.premises(n) {
+            if !ok(p) {
+                continue;
+            }
+            let vote = w * usage.idf(p);
+            let e = scores.entry(p).or_default();
+            e.0 += vote;
+            e.1.push((n, vote));
+        }
+    }
+    let mut out: Vec<VotedPremise> = scores
+        .into_iter()
+        .map(|(id, (score, mut votes))| {
+            votes.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+            let mut voters: Vec<DeclId> = Vec::with_capacity(votes.len());
+            for (v, _) in votes {
+                if !voters.contains(&v) {
+                    voters.push(v);
+                }
+            }
+            VotedPremise { id, score, voters }
+        })
+        .collect();
+    out.sort_by(|a, b| b.score.total_cmp(&a.score).then(a.id.cmp(&b.id)));
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A hand-made graph of a stock ledger: theorems 0..=3, premises 4..=7.
+    ///   0 (credit_total)  uses 4 (balance_def), 5 (credit_spec), 7 (nat_le)
+    ///   1 (debit_total)   uses 4, 6 (debit_spec), 7
+    ///   2 (audit_closed)  uses 7
+    ///   3 (transfer_safe) uses 5, 6, 7  — not votable
+    fn ledger() -> DependencyGraph {
+        DependencyGraph::from_edges(
+            8,
+            &[(0, 4), (0, 5), (0, 7), (1, 4), (1, 6), (1, 7), (2, 7), (3, 5), (3, 6), (3, 7)],
+            &[],
+        )
+    }
+
+    /// idf = ln(1 + proofs/uses) over the voting proofs 0, 1, 2 (hand-worked):
+    ///   4: ln(1 + 3/2) = 0.9163   5: ln(1 + 3/1) = 1.3863   7: ln(1 + 3/3) = 0.6931
+    /// Neighbours 0 (sim 1.0) and 1 (sim 0.5), sharpness 2, no self score:
+    ///   4: 1·0.9163 + 0.25·0.9163 = 1.1454
+    ///   5: 1·1.3863               = 1.3863
+    ///   6: 0.25·1.3863            = 0.3466
+    ///   7: 1·0.6931 + 0.25·0.6931 = 0.8664
+    #[test]
+    fn votes_are_weighted_by_similarity_and_damped_by_idf() {
+        let g = ledger();
+        let usage = PremiseUsage::count(&g, 8, &[DeclId(0), DeclId(1), DeclId(2)]);
+        assert_eq!(usage.uses(DeclId(7)), 3);
+        assert_eq!(usage.uses(DeclId(5)), 1, "the non-voting proof 3 is not counted");
+        let params = VoteParams {
+            neighbours: 2,
+            sharpness: 2.0,
+            self_weight: 0.0,
+        };
+        let out = neighbour_votes(&g, &usage, &[(DeclId(0), 1.0), (DeclId(1), 0.5)], None, &params);
+        let order: Vec<u32> = out.iter().map(|v| v.id.0).collect();
+        assert_eq!(order, vec![5, 4, 7, 6]);
+        let expect = [1.3863, 1.1454, 0.8664, 0.3466];
+        for (v, e) in out.iter().zip(expect) {
+            assert!((v.score - e).abs() < 1e-3, "{} vs {e}", v.score);
+        }
+        assert_eq!(out[1].voters, vec![DeclId(0), DeclId(1)]);
+        assert_eq!(out[3].voters, vec![DeclId(1)]);
+    }
+
+    #[test]
+    fn only_allowed_premises_are_scored_and_neighbours_are_candidates() {
+        let g = ledger();
+        let usage = PremiseUsage::count(&g, 8, &[DeclId(0), DeclId(1), DeclId(2)]);
+        let mut allowed = PremiseFilter::all(8);
+        allowed.remove(DeclId(5));
+        let out = neighbour_votes(
+            &g,
+            &usage,
+            &[(DeclId(0), 1.0)],
+            Some(&allowed),
+            &VoteParams::default(),
+        );
+        let ids: Vec<u32> = out.iter().map(|v| v.id.0).collect();
+        assert!(!ids.contains(&5));
+        assert!(ids.contains(&0), "the neighbour itself is a candidate");
+        assert!(out.iter().all(|v| v.score > 0.0));
+    }
+}
