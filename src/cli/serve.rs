@@ -183,6 +183,25 @@ fn demo_index() -> anyhow::Result<PathBuf> {
     )
 }
 
+/// Warns when the token file can be read by users other than its owner.
+fn warn_if_others_can_read(path: &Path) {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        if let Ok(meta) = std::fs::metadata(path) {
+            if meta.permissions().mode() & 0o077 != 0 {
+                eprintln!(
+                    "quarry: warning: the token file `{}` can be read by other users; \
+                     `chmod 600` it",
+                    path.display()
+                );
+            }
+        }
+    }
+    #[cfg(not(unix))]
+    let _ = path;
+}
+
 /// Quotes `text` for a POSIX shell.
 fn shell_quote(text: &str) -> String {
     format!("'{}'", text.replace('\'', r"'\''"))
@@ -207,7 +226,10 @@ fn curl_example(addr: SocketAddr, goal: &str, token_file: Option<&Path>) -> Stri
 /// Runs `quarry serve`.
 pub fn run(args: ServeArgs) -> anyhow::Result<ExitCode> {
     let token = match &args.token_file {
-        Some(path) => Some(BearerToken::from_file(path)?),
+        Some(path) => {
+            warn_if_others_can_read(path);
+            Some(BearerToken::from_file(path)?)
+        }
         None => None,
     };
     let index_dir = match &args.index {
@@ -294,12 +316,18 @@ mod tests {
 
     #[test]
     fn the_curl_example_survives_quotes_in_the_goal() {
-        let line = curl_example(
-            "127.0.0.1:7341".parse().unwrap(),
-            "pop (push q x) = Some (x, q')",
-            None,
-        );
-        assert!(line.contains(r"q'\''"), "{line}");
+        let goal = "pick (push t q) = Some (t, q')";
+        let line = curl_example("127.0.0.1:7341".parse().unwrap(), goal, None);
         assert!(line.starts_with("curl -s http://127.0.0.1:7341/v1/rank"));
+        // The POSIX shell reads the quoted body back as it was (common practice: sh -c).
+        let (_, body_arg) = line.rsplit_once(" -d ").unwrap();
+        let out = std::process::Command::new("sh")
+            .arg("-c")
+            .arg(format!("printf %s {body_arg}"))
+            .output()
+            .unwrap();
+        let body: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert_eq!(body["goal"], goal);
+        assert_eq!(body["limit"], 5);
     }
 }

@@ -49,6 +49,8 @@ pub enum ErrorCode {
     UnknownFile,
     /// The `file` field matches several files of the index.
     AmbiguousFile,
+    /// The `module` field names no module of the index.
+    UnknownModule,
     /// Too many requests are already being served.
     Overloaded,
     /// The request took longer than the server's time limit.
@@ -61,7 +63,7 @@ pub enum ErrorCode {
 
 impl ErrorCode {
     /// Every code, for documentation checks.
-    pub const ALL: [ErrorCode; 22] = [
+    pub const ALL: [ErrorCode; 23] = [
         ErrorCode::MalformedJson,
         ErrorCode::MissingField,
         ErrorCode::UnknownField,
@@ -80,6 +82,7 @@ impl ErrorCode {
         ErrorCode::NoGoals,
         ErrorCode::UnknownFile,
         ErrorCode::AmbiguousFile,
+        ErrorCode::UnknownModule,
         ErrorCode::Overloaded,
         ErrorCode::Timeout,
         ErrorCode::NotReady,
@@ -107,6 +110,7 @@ impl ErrorCode {
             ErrorCode::NoGoals => "no_goals",
             ErrorCode::UnknownFile => "unknown_file",
             ErrorCode::AmbiguousFile => "ambiguous_file",
+            ErrorCode::UnknownModule => "unknown_module",
             ErrorCode::Overloaded => "overloaded",
             ErrorCode::Timeout => "timeout",
             ErrorCode::NotReady => "not_ready",
@@ -133,7 +137,8 @@ impl ErrorCode {
             | ErrorCode::GoalTooLarge
             | ErrorCode::NoGoals
             | ErrorCode::UnknownFile
-            | ErrorCode::AmbiguousFile => StatusCode::UNPROCESSABLE_ENTITY,
+            | ErrorCode::AmbiguousFile
+            | ErrorCode::UnknownModule => StatusCode::UNPROCESSABLE_ENTITY,
             ErrorCode::Overloaded | ErrorCode::NotReady => StatusCode::SERVICE_UNAVAILABLE,
             ErrorCode::Timeout => StatusCode::GATEWAY_TIMEOUT,
             ErrorCode::Internal => StatusCode::INTERNAL_SERVER_ERROR,
@@ -145,6 +150,7 @@ impl ErrorCode {
 #[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
 #[error("{}: {message}", code.as_str())]
 pub struct ApiError {
+    /// The machine code (and so the status).
     pub code: ErrorCode,
     /// A sentence for a person, naming the input that was wrong.
     pub message: String,
@@ -183,14 +189,18 @@ impl ApiError {
 /// The JSON form of an error: `{"error": {"code": ..., "message": ...}}`.
 #[derive(Clone, Debug, Serialize)]
 pub struct ErrorBody {
+    /// The error itself.
     pub error: ErrorDetail,
 }
 
 /// The inside of [`ErrorBody`].
 #[derive(Clone, Debug, Serialize)]
 pub struct ErrorDetail {
+    /// The stable machine code.
     pub code: &'static str,
+    /// A sentence for a person.
     pub message: String,
+    /// Names that matched an ambiguous request.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub candidates: Vec<String>,
 }

@@ -49,14 +49,21 @@ struct Series {
 /// What `GET /metrics` reports about the served index.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct IndexGauges {
+    /// Declarations in the served index.
     pub declarations: u64,
+    /// Source files in the served index.
     pub files: u64,
+    /// Modules in the served index.
     pub modules: u64,
     /// Bytes of every part of the generation on disk.
     pub bytes: u64,
+    /// Generations swapped in since start.
     pub reloads: u64,
+    /// Generations refused since start.
     pub reload_failures: u64,
+    /// Seconds since the server started.
     pub uptime_seconds: f64,
+    /// Requests being answered now.
     pub in_flight: u64,
 }
 

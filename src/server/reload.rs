@@ -23,7 +23,9 @@ pub const SETTLE: Duration = Duration::from_millis(150);
 
 /// One loaded generation and when it was loaded.
 pub struct Loaded {
+    /// The opened generation.
     pub index: OpenIndex,
+    /// When this server finished opening it.
     pub loaded_at: SystemTime,
     /// Bytes of every part of the generation, from its manifest.
     pub bytes: u64,

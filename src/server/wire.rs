@@ -41,7 +41,10 @@ pub struct RankBody {
     /// The file the cursor is in, as indexed (or a unique ending of that path).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub file: Option<String>,
-    /// The cursor's 1-based line in `file`.
+    /// The module the cursor is in (instead of `file`), by its full name.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub module: Option<String>,
+    /// The cursor's 1-based line in `file` (or in `module`'s file).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub line: Option<u32>,
     /// Only premises of these kinds (`theorem`, `definition`, ...).
@@ -313,7 +316,8 @@ mod tests {
                 .unwrap();
         assert_eq!(b.limit, DEFAULT_LIMIT);
         assert!(!b.explain && !b.all_goals);
-        assert!(b.file.is_none() && b.line.is_none() && b.kinds.is_none() && b.signals.is_none());
+        assert!(b.file.is_none() && b.module.is_none() && b.line.is_none());
+        assert!(b.kinds.is_none() && b.signals.is_none());
     }
 
     #[test]

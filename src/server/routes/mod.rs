@@ -59,9 +59,13 @@ impl Default for Limits {
 
 /// Everything the handlers share. The server keeps no per-client state between requests.
 pub struct AppState {
+    /// The generation being served.
     pub live: Arc<LiveIndex>,
+    /// Request counts and latencies.
     pub metrics: Metrics,
+    /// The limits the server runs with.
     pub limits: Limits,
+    /// The bearer token requests must carry, if any.
     pub token: Option<BearerToken>,
     /// Print one access-log line per request on stderr.
     pub log_requests: bool,

@@ -16,7 +16,7 @@ use axum::Json;
 
 use crate::library::{DeclKind, Library};
 use crate::query::GoalError;
-use crate::retrieve::accessible::{place_of_file, PlaceError};
+use crate::retrieve::accessible::{module_by_name, place_of_file, PlaceError, QueryPlace};
 use crate::retrieve::{rank, PremiseRanking, RankError, RankRequest, Signal};
 use crate::server::body::json_body;
 use crate::server::errors::{ApiError, ErrorCode};
@@ -42,7 +42,8 @@ fn place_error(e: PlaceError) -> ApiError {
     let code = match e {
         PlaceError::AmbiguousFile { .. } => ErrorCode::AmbiguousFile,
         PlaceError::BadLine(_) => ErrorCode::InvalidField,
-        PlaceError::UnknownFile(_) | PlaceError::UnknownModule(_) => ErrorCode::UnknownFile,
+        PlaceError::UnknownFile(_) => ErrorCode::UnknownFile,
+        PlaceError::UnknownModule(_) => ErrorCode::UnknownModule,
     };
     ApiError::new(code, e.to_string())
 }
@@ -55,14 +56,26 @@ pub fn rank_request(body: &RankBody, library: &Library) -> Result<RankRequest, A
             body.limit
         )));
     }
-    let place = match (&body.file, body.line) {
-        (Some(file), line) => Some(place_of_file(library, file, line).map_err(place_error)?),
-        (None, Some(_)) => {
+    if body.line == Some(0) {
+        return Err(invalid("field `line`: lines start at 1, got 0".to_string()));
+    }
+    let place = match (&body.file, &body.module, body.line) {
+        (Some(_), Some(_), _) => {
             return Err(invalid(
-                "field `line`: a line needs the `file` it is in".to_string(),
+                "fields `file` and `module`: give one place, not both".to_string(),
             ))
         }
-        (None, None) => None,
+        (Some(file), None, line) => Some(place_of_file(library, file, line).map_err(place_error)?),
+        (None, Some(module), line) => Some(QueryPlace {
+            module: module_by_name(library, module).map_err(place_error)?,
+            line,
+        }),
+        (None, None, Some(_)) => {
+            return Err(invalid(
+                "field `line`: a line needs the `file` (or `module`) it is in".to_string(),
+            ))
+        }
+        (None, None, None) => None,
     };
     let kinds = match &body.kinds {
         None => None,

@@ -222,6 +222,9 @@ async fn request_fields_are_checked_against_the_library() {
             r#"{"goal": "length q", "file": "theories/Queue.v", "line": 0}"#,
             "invalid_field",
         ),
+        (r#"{"goal": "length q", "module": "Sched.Nowhere"}"#, "unknown_module"),
+        (r#"{"goal": "length q", "module": "Sched.Queue", "file": "Queue.v"}"#, "invalid_field"),
+        (r#"{"goal": "length q", "signals": []}"#, "invalid_field"),
         (r#"{"goal": "length q", "limitt": 5}"#, "unknown_field"),
         (r#"{"limit": 5}"#, "missing_field"),
         (r#"{"goal": "length q""#, "malformed_json"),
@@ -242,6 +245,14 @@ async fn request_fields_are_checked_against_the_library() {
         assert_ne!(p["name"], "Sched.Queue.length_enqueue");
         assert_ne!(p["name"], "Sched.Queue.dequeue_enqueue_empty");
     }
+    // The same place named by its module gives the same answer.
+    let (status, by_module) = call(
+        &f.app,
+        post("/v1/rank", r#"{"goal": "length (enqueue t q)", "module": "Sched.Queue", "line": 14, "kinds": ["theorem", "definition"]}"#),
+    )
+    .await;
+    assert_eq!(status, StatusCode::OK, "{by_module}");
+    assert_eq!(by_module["premises"], v["premises"]);
 }
 
 #[tokio::test]
@@ -382,4 +393,60 @@ async fn nothing_is_answered_before_the_first_load_but_health() {
         (status, v["error"]["code"].as_str()),
         (StatusCode::SERVICE_UNAVAILABLE, Some("not_ready"))
     );
+}
+
+#[test]
+fn no_request_body_or_name_makes_the_server_fail() {
+    use proptest::prelude::*;
+    let f = fixture(Limits::default());
+    let runtime = tokio::runtime::Builder::new_current_thread()
+        .enable_all()
+        .build()
+        .unwrap();
+    let fields = prop::sample::select(vec![
+        "goal",
+        "limit",
+        "file",
+        "module",
+        "line",
+        "kinds",
+        "signals",
+        "explain",
+        "all_goals",
+        "items",
+    ]);
+    let values = prop::sample::select(vec![
+        "\"q : RunQueue ⊢ length q = 0\"",
+        "0",
+        "-1",
+        "4294967296",
+        "201",
+        "null",
+        "true",
+        "[]",
+        "[\"theorem\"]",
+        "{}",
+        "\"\"",
+        "\"theories/Queue.v\"",
+        "\"../../etc\"",
+        "1e9",
+    ]);
+    let body = prop::collection::vec((fields, values), 0..6).prop_map(|pairs| {
+        let inner: Vec<String> = pairs.iter().map(|(k, v)| format!("\"{k}\": {v}")).collect();
+        format!("{{{}}}", inner.join(", "))
+    });
+    let config = ProptestConfig {
+        cases: 200,
+        failure_persistence: None,
+        ..ProptestConfig::default()
+    };
+    proptest!(config, |(body in body, noise in "\\PC{0,40}", name in "[A-Za-z0-9_.%']{1,30}")| {
+        for (path, text) in [("/v1/rank", body.clone()), ("/v1/rank/batch", format!("{{\"items\": [{body}]}}")), ("/v1/rank", noise.clone())] {
+            let (status, v) = runtime.block_on(call(&f.app, post(path, &text)));
+            prop_assert!(status != StatusCode::INTERNAL_SERVER_ERROR, "{path} {text}: {v}");
+            prop_assert!(status == StatusCode::OK || v["error"]["code"].is_string(), "{path} {text}: {status}");
+        }
+        let (status, v) = runtime.block_on(call(&f.app, get(&format!("/v1/declarations/{name}"))));
+        prop_assert!(status != StatusCode::INTERNAL_SERVER_ERROR, "{name}: {v}");
+    });
 }

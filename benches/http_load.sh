@@ -1,0 +1,66 @@
+#!/usr/bin/env bash
+# Load test of `quarry serve` on loopback: POST /v1/rank with 16 concurrent connections.
+#
+#   benches/http_load.sh [INDEX_DIR] [DURATION]
+#
+# Builds the release binary, indexes the demo library (index_fixtures/) unless an index
+# folder is given, starts the server on an ephemeral 127.0.0.1 port, and runs wrk (Debian's
+# `wrk`: apt-get install wrk) for DURATION (default 20s) with 16 connections on 2 threads,
+# each request one of a few goals of the demo library. Prints wrk's latency distribution
+# (median, p99) and requests/s, and the server's resident memory (VmRSS) after loading and
+# its peak (VmHWM) after the run. wrk reports any non-2xx answer in its summary. Traffic goes to 127.0.0.1 only, and the run stops by itself.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+duration="${2:-20s}"
+command -v wrk >/dev/null || { echo "wrk is not installed: apt-get install wrk" >&2; exit 1; }
+
+cargo build --release --quiet
+bin=target/release/quarry
+work="$(mktemp -d)"
+server_pid=""
+cleanup() {
+    if [ -n "$server_pid" ]; then kill "$server_pid" 2>/dev/null || true; wait "$server_pid" 2>/dev/null || true; fi
+    rm -rf "$work"
+}
+trap cleanup EXIT
+
+if [ -n "${1:-}" ]; then
+    index="$1"
+else
+    index="$work/index"
+    "$bin" build index_fixtures --out "$index" --quiet
+fi
+
+"$bin" serve "$index" --listen 127.0.0.1:0 --quiet >"$work/out" 2>"$work/err" &
+server_pid=$!
+for _ in $(seq 1 100); do
+    grep -q "ready on" "$work/out" 2>/dev/null && break
+    sleep 0.1
+done
+url="$(grep -o 'ready on http://[0-9.:]*' "$work/out" | sed 's/ready on //')"
+[ -n "$url" ] || { echo "the server did not start:" >&2; cat "$work/err" >&2; exit 1; }
+
+# Goals in the demo library's vocabulary (the Lean stock ledger), sent in turn.
+cat >"$work/post.lua" <<'EOF'
+local goals = {
+  '{"goal": "reconcile n n = Finding.balanced"}',
+  '{"goal": "b : Book\\nm : Movement\\n⊢ (b.record m).onHand = replay b.onHand [m]"}',
+  '{"goal": "ms : List Movement\\n⊢ receivedFast ms = received ms", "explain": true}',
+  '{"goal": "c : Nat\\n⊢ replay q (audit c :: ms) = replay c ms", "limit": 50}',
+}
+local i = 0
+request = function()
+  i = i + 1
+  return wrk.format("POST", "/v1/rank", { ["Content-Type"] = "application/json" }, goals[(i % #goals) + 1])
+end
+EOF
+
+rss() { awk -v k="$1:" '$1 == k { print $2 " " $3 }' "/proc/$server_pid/status"; }
+echo "== server $url, $(grep -o "index [^,]*" "$work/out")"
+echo "== memory after loading: VmRSS $(rss VmRSS)"
+# Warm up (page cache, allocator), then measure.
+wrk -t2 -c16 -d2s -s "$work/post.lua" "$url/v1/rank" >/dev/null
+echo "== wrk -t2 -c16 -d$duration --latency POST /v1/rank"
+wrk -t2 -c16 -d"$duration" --latency -s "$work/post.lua" "$url/v1/rank"
+echo "== memory after the run: VmRSS $(rss VmRSS), peak VmHWM $(rss VmHWM)"
