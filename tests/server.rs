@@ -42,6 +42,7 @@ fn rank_answers_with_premises_the_parsed_goal_and_the_index_identity() {
         assert!(p["file"].as_str().unwrap().ends_with(".v"));
         assert!(p["line"].as_u64().unwrap() >= 1);
         assert!(p.get("matched_terms").is_some(), "explain was asked: {p}");
+        assert!(p["voters"].is_array(), "explain was asked: {p}");
     }
     assert_eq!(a.json["goal"]["format"], "lean");
     assert!(a.json["goal"]["goals"][0]["conclusion"]

@@ -53,7 +53,7 @@ pub struct RankBody {
     /// Only these signals (`lexical`, ...); all of the index's signals when absent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub signals: Option<Vec<String>>,
-    /// Also return each premise's matched terms.
+    /// Also return each premise's matched terms and voting neighbours.
     #[serde(default)]
     pub explain: bool,
     /// Rank for every goal of a multi-goal state, not just the first.
@@ -153,6 +153,9 @@ pub struct RankedPremiseWire {
     /// With `explain`: the query's terms found in the premise's name or statement.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub matched_terms: Option<Vec<String>>,
+    /// With `explain`: the neighbour theorems whose proofs voted for it, strongest first.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub voters: Option<Vec<String>>,
 }
 
 /// The answer of `POST /v1/rank`.

@@ -177,6 +177,13 @@ pub fn rank_response(loaded: &Loaded, ranking: &PremiseRanking, body: &RankBody)
                 })
                 .collect(),
             matched_terms: body.explain.then(|| p.matched_terms.clone()),
+            voters: body.explain.then(|| {
+                p.voters
+                    .iter()
+                    .filter_map(|v| library.declarations.get(v.0 as usize))
+                    .map(|v| v.name.clone())
+                    .collect()
+            }),
         })
         .collect();
     let state = &ranking.goal;
