@@ -1,0 +1,3 @@
+import Ledger.Basic
+import Ledger.Balance
+import Ledger.Audit
