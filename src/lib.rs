@@ -7,10 +7,14 @@
 //! ```
 //!
 //! - [`extract`] reads `.lean` and `.v` files into the [`library`] model;
-//! - [`library`] is the model (declarations, modules, dependency graph) and its on-disk form.
+//! - [`library`] is the model (declarations, modules, dependency graph) and its on-disk form;
+//! - [`tokens`] is the math-aware tokenizer every retrieval signal shares;
+//! - [`query`] parses a pasted goal (Lean, Coq, Isabelle display, statement or header).
 
 pub mod dense;
 pub mod extract;
 pub mod harvest;
 pub mod library;
+pub mod query;
+pub mod tokens;
 pub mod server;
