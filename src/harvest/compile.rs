@@ -59,10 +59,10 @@ pub fn first_error(stderr: &str) -> String {
             };
         }
     }
-    lines
-        .iter()
-        .find(|l| !l.trim().is_empty())
-        .map_or_else(|| "coqc failed without a message".to_string(), |l| l.to_string())
+    lines.iter().find(|l| !l.trim().is_empty()).map_or_else(
+        || "coqc failed without a message".to_string(),
+        |l| l.to_string(),
+    )
 }
 
 /// Compiles `file` (inside `workdir`) with `coqc -q <load_path> file`, stopping it after

@@ -50,7 +50,8 @@ pub fn displays(stdout: &str) -> BTreeMap<usize, String> {
             if let Some((m, lines)) = open.take() {
                 if m == n {
                     let text = lines.join("\n");
-                    out.entry(n).or_insert_with(|| text.trim_matches('\n').to_string());
+                    out.entry(n)
+                        .or_insert_with(|| text.trim_matches('\n').to_string());
                 }
             }
             continue;
@@ -67,7 +68,11 @@ mod tests {
     use super::*;
 
     fn display(n: usize, body: &str) -> String {
-        format!("{}\n{body}\n{}\n", marker_line(true, n), marker_line(false, n))
+        format!(
+            "{}\n{body}\n{}\n",
+            marker_line(true, n),
+            marker_line(false, n)
+        )
     }
 
     #[test]

@@ -66,7 +66,10 @@ pub struct Instrumented {
 fn is_proof_command(first_word: &str) -> bool {
     // Vernacular commands start with a capital (`Proof`, `Qed`, `Show`, `Check`, `Fail`,
     // `Focus`, `Hint`...); tactics and goal selectors do not (common practice in Coq).
-    first_word.chars().next().is_none_or(|c| c.is_ascii_uppercase())
+    first_word
+        .chars()
+        .next()
+        .is_none_or(|c| c.is_ascii_uppercase())
 }
 
 /// The marker commands inserted before a tactic numbered `n`.
@@ -131,7 +134,9 @@ pub fn instrument(module: &str, text: &str) -> Instrumented {
         out.text.push_str(text.get(copied..at).unwrap_or(""));
         out.text.push_str(&inserted);
         copied = at;
-        out.offsets.insertions.push((s.start, inserted.len() as u32));
+        out.offsets
+            .insertions
+            .push((s.start, inserted.len() as u32));
         out.sentences.push(TacticSentence {
             marker: n,
             start: s.start,
@@ -150,7 +155,8 @@ mod tests {
 
     #[test]
     fn markers_go_after_bullets_and_braces_and_before_tactics_only() {
-        let src = "Lemma p : True /\\ True.\nProof using.\nsplit.\n- exact I.\n- { exact I. }\nQed.\n";
+        let src =
+            "Lemma p : True /\\ True.\nProof using.\nsplit.\n- exact I.\n- { exact I. }\nQed.\n";
         let i = instrument("M", src);
         let texts: Vec<&str> = i
             .sentences

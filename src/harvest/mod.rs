@@ -51,8 +51,8 @@ pub enum HarvestError {
     NoSources(String),
     #[error("coqc `{0}` cannot be run ({1}); install Coq (e.g. apt-get install coq)")]
     NoCoqc(PathBuf, String),
-    #[error("{0}")]
-    Walk(#[from] crate::extract::walk::WalkError),
+    #[error("reading the `_CoqProject` in `{0}`: {1}")]
+    CoqProject(PathBuf, String),
     #[error("could not start {0} worker threads: {1}")]
     Threads(usize, String),
 }
@@ -138,10 +138,17 @@ fn find_files(opts: &HarvestOptions) -> Result<(Vec<CoqFile>, Vec<CoqPrefix>), H
             }
             if entry.file_name() == "_CoqProject" {
                 if let Some(dir) = path.parent() {
-                    prefixes.extend(coq_project_prefixes(dir)?.into_iter().map(|p| CoqPrefix {
-                        logical: p.logical,
-                        dir: canonical(&p.dir),
-                    }));
+                    prefixes.extend(
+                        coq_project_prefixes(dir)
+                            .map_err(|e| {
+                                HarvestError::CoqProject(dir.to_path_buf(), e.to_string())
+                            })?
+                            .into_iter()
+                            .map(|p| CoqPrefix {
+                                logical: p.logical,
+                                dir: canonical(&p.dir),
+                            }),
+                    );
                 }
             } else if path.extension().is_some_and(|e| e == "v") {
                 here.push(path.to_path_buf());
@@ -251,7 +258,11 @@ pub fn harvest(opts: &HarvestOptions) -> Result<HarvestOutcome, HarvestError> {
 }
 
 /// Instruments, compiles and reads one file; the error is the message for the summary.
-fn replay(f: &CoqFile, prefixes: &[CoqPrefix], opts: &HarvestOptions) -> Result<Vec<GoalRecord>, String> {
+fn replay(
+    f: &CoqFile,
+    prefixes: &[CoqPrefix],
+    opts: &HarvestOptions,
+) -> Result<Vec<GoalRecord>, String> {
     let bytes = std::fs::read(&f.abs).map_err(|e| format!("cannot read: {e}"))?;
     let text = crate::extract::walk::read_source(&bytes).map_err(|d| d.message)?;
     let inst = instrument::instrument(&f.module, text);
@@ -277,16 +288,29 @@ fn replay(f: &CoqFile, prefixes: &[CoqPrefix], opts: &HarvestOptions) -> Result<
         if copy_logical(&p.logical) != p.logical {
             continue; // the installed standard library is loaded by coqc itself
         }
-        load_path.extend(["-R".to_string(), p.dir.display().to_string(), p.logical.clone()]);
+        load_path.extend([
+            "-R".to_string(),
+            p.dir.display().to_string(),
+            p.logical.clone(),
+        ]);
     }
     load_path.extend([
         "-Q".to_string(),
         dir.path().join("src").display().to_string(),
         own_logical,
     ]);
-    let stdlib_copy = f.prefix.as_ref().is_some_and(|(p, _)| copy_logical(&p.logical) != p.logical);
-    let compiled = compile::compile(&opts.coqc, &load_path, dir.path(), &copy, opts.timeout_per_file)
-        .map_err(|e| e.to_string())?;
+    let stdlib_copy = f
+        .prefix
+        .as_ref()
+        .is_some_and(|(p, _)| copy_logical(&p.logical) != p.logical);
+    let compiled = compile::compile(
+        &opts.coqc,
+        &load_path,
+        dir.path(),
+        &copy,
+        opts.timeout_per_file,
+    )
+    .map_err(|e| e.to_string())?;
     let shown = displays::displays(&compiled.stdout);
     let refs = glob::references(&compiled.glob);
     Ok(records::file_records(
@@ -314,7 +338,10 @@ mod tests {
         assert_eq!(copy_logical("Coq"), "Copy");
         assert_eq!(copy_logical("Coq.Arith"), "Copy.Arith");
         assert_eq!(copy_logical("Coquelicot"), "Coquelicot");
-        assert_eq!(quarry_name("Copy.Arith.PeanoNat.Nat.add_0_r"), "Coq.Arith.PeanoNat.Nat.add_0_r");
+        assert_eq!(
+            quarry_name("Copy.Arith.PeanoNat.Nat.add_0_r"),
+            "Coq.Arith.PeanoNat.Nat.add_0_r"
+        );
         assert_eq!(quarry_name("Coq.Init.Logic.I"), "Coq.Init.Logic.I");
     }
 
@@ -329,6 +356,9 @@ mod tests {
             progress: false,
         };
         assert!(matches!(harvest(&opts), Err(HarvestError::NoCoqc(..))));
-        assert!(matches!(find_files(&opts), Err(HarvestError::MissingRoot(_))));
+        assert!(matches!(
+            find_files(&opts),
+            Err(HarvestError::MissingRoot(_))
+        ));
     }
 }
