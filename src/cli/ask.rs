@@ -393,6 +393,15 @@ fn print_table(
                     )
                 )
             )?;
+            if !p.voters.is_empty() {
+                let voters: Vec<&str> = p
+                    .voters
+                    .iter()
+                    .take(5)
+                    .map(|v| index.library.declaration(*v).name.as_str())
+                    .collect();
+                writeln!(out, "     {}", style.paint("2", &format!("voted for by: {}", voters.join(", "))))?;
+            }
         }
     }
     writeln!(

@@ -280,9 +280,109 @@ fn print_summary(
         c.references_ambiguous,
         c.references_dot_on_local
     )?;
+    print_learning(out, &m.settings)?;
     for p in problems.iter().take(20) {
         for d in p.diagnostics {
             writeln!(out, "  {}:{}: {}", p.path, d.line, d.message)?;
+        }
+    }
+    Ok(())
+}
+
+/// The learned parts of the index: what was learned from, the encoder and its training
+/// figures, and the fusion weights with how they were chosen.
+fn print_learning(
+    out: &mut impl Write,
+    settings: &std::collections::BTreeMap<String, serde_json::Value>,
+) -> anyhow::Result<()> {
+    use serde_json::Value;
+    let num = |v: &Value| v.as_f64().map_or("?".to_string(), |x| format!("{x:.3}"));
+    let list = |v: Option<&Value>| {
+        v.and_then(Value::as_array)
+            .map(|a| a.iter().map(num).collect::<Vec<_>>().join(", "))
+            .unwrap_or_default()
+    };
+    if let Some(t) = settings.get("training") {
+        writeln!(
+            out,
+            "  learned from {}: {} training theorems, {} held out for validation",
+            t["learned_from"].as_str().unwrap_or("?"),
+            t["training_theorems"],
+            t["validation_theorems"]
+        )?;
+    }
+    if let Some(d) = settings.get("dense") {
+        if d["mode"] == "off" {
+            writeln!(out, "  dense signal: off")?;
+        } else {
+            writeln!(
+                out,
+                "  dense signal: learned encoder ({}), {} buckets x {} dimensions, {} vector index",
+                d["encoder"].as_str().unwrap_or("?"),
+                d["buckets"],
+                d["dim"],
+                d["vector_index"].as_str().unwrap_or("?")
+            )?;
+            writeln!(
+                out,
+                "    trained on {} pairs of {} goals ({} hard negatives) in {} s",
+                d["pairs"],
+                d["goals"],
+                d["hard_negatives"],
+                num(&d["train_seconds"])
+            )?;
+            writeln!(out, "    loss per epoch: {}", list(d.get("epoch_loss")))?;
+            writeln!(
+                out,
+                "    validation recall@10 ({} goals), before and after each epoch: {}",
+                d["validation_goals"],
+                list(d.get("validation_recall"))
+            )?;
+        }
+    }
+    if let Some(f) = settings.get("fusion") {
+        let weights: Vec<String> = f["weights"]["weights"]
+            .as_array()
+            .map(|a| {
+                a.iter()
+                    .map(|p| format!("{}={}", p[0].as_str().unwrap_or("?"), num(&p[1])))
+                    .collect()
+            })
+            .unwrap_or_default();
+        let shown = if weights.is_empty() {
+            "every signal 1".to_string()
+        } else {
+            weights.join(", ")
+        };
+        writeln!(
+            out,
+            "  fusion: reciprocal rank fusion, k = {}, weights {} ({})",
+            num(&f["weights"]["k"]),
+            shown,
+            f["chosen"].as_str().unwrap_or("?")
+        )?;
+        if let Some(t) = f.get("tuning") {
+            let per: Vec<String> = t["signal_recall"]
+                .as_array()
+                .map(|a| {
+                    a.iter()
+                        .map(|p| format!("{} {}", p[0].as_str().unwrap_or("?"), num(&p[1])))
+                        .collect()
+                })
+                .unwrap_or_default();
+            writeln!(
+                out,
+                "    validation recall@10 on {} queries: {}; fused {}",
+                t["queries"],
+                per.join(", "),
+                num(&t["fused_recall"])
+            )?;
+            if t["fell_back"] == true {
+                writeln!(
+                    out,
+                    "    no weighting beat the best single signal: the fusion reproduces it"
+                )?;
+            }
         }
     }
     Ok(())

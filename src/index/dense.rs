@@ -58,7 +58,13 @@ pub struct DensePart {
     pub encoder: LearnedEncoder,
     /// Row `i` is declaration `i`'s premise-side vector.
     pub vectors: VectorIndex,
+    /// The theorems whose proofs the encoder was trained on (sorted), kept so a check can
+    /// prove no held-out proof was learned from.
+    pub training_goals: Vec<DeclId>,
 }
+
+/// The part listing the theorems the encoder was trained on.
+pub const TRAINING_GOALS_PART: &str = "dense/training_goals.bin";
 
 /// What training did, for the manifest and `quarry inspect`.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, serde::Deserialize)]
@@ -233,13 +239,28 @@ pub fn build_dense(
         train_seconds,
         encode_seconds: started.elapsed().as_secs_f64(),
     };
-    Ok((DensePart { encoder, vectors }, summary))
+    let mut training_goals = goal_ids;
+    training_goals.sort();
+    Ok((
+        DensePart {
+            encoder,
+            vectors,
+            training_goals,
+        },
+        summary,
+    ))
 }
 
 impl DensePart {
     /// Writes the encoder and the vectors into the generation being built.
     pub fn save(&self, writer: &mut GenerationWriter) -> Result<(), DenseError> {
         save_encoder(writer, &self.encoder)?;
+        let goals: Vec<u32> = self.training_goals.iter().map(|d| d.0).collect();
+        let bytes = postcard::to_stdvec(&goals).map_err(|e| DenseError::Decode {
+            what: "training goals",
+            message: e.to_string(),
+        })?;
+        writer.write_part(TRAINING_GOALS_PART, &bytes)?;
         self.vectors.save(writer)
     }
 
@@ -260,7 +281,17 @@ impl DensePart {
                 ),
             });
         }
-        Ok(Some(DensePart { encoder, vectors }))
+        let goals: Vec<u32> = postcard::from_bytes(&generation.read_part(TRAINING_GOALS_PART)?)
+            .map_err(|e| DenseError::Decode {
+                what: "training goals",
+                message: e.to_string(),
+            })?;
+        let training_goals = goals.into_iter().map(DeclId).collect();
+        Ok(Some(DensePart {
+            encoder,
+            vectors,
+            training_goals,
+        }))
     }
 
     /// The `n` declarations nearest to `goal` (already encoded) among those `allowed`
@@ -318,6 +349,7 @@ mod tests {
             vectors: VectorIndex::Exact(ExactIndex::new(
                 VectorSet::from_rows(2, &rows).expect("rows"),
             )),
+            training_goals: Vec::new(),
         };
         let mut allowed = PremiseFilter::all(5);
         allowed.remove(DeclId(0));
