@@ -33,12 +33,28 @@ fn emacs_available() -> bool {
         eprintln!("skipping: emacs is not installed here (apt-get install emacs-nox)");
         return false;
     }
-    let installed = Command::new("apt-get")
-        .args(["install", "-y", "--no-install-recommends", "emacs-nox"])
-        .env("DEBIAN_FRONTEND", "noninteractive")
-        .status();
+    let install = || {
+        Command::new("apt-get")
+            .args([
+                "install",
+                "-y",
+                "-q",
+                "--no-install-recommends",
+                "emacs-nox",
+            ])
+            .env("DEBIAN_FRONTEND", "noninteractive")
+            .status()
+            .is_ok_and(|s| s.success())
+    };
+    // A stale package list is refreshed once, as tests/support/debian.rs does.
+    let installed = install()
+        || (Command::new("apt-get")
+            .args(["update", "-q"])
+            .status()
+            .is_ok_and(|s| s.success())
+            && install());
     assert!(
-        installed.is_ok_and(|s| s.success()) && runs(),
+        installed && runs(),
         "emacs-nox is required under CI=true and could not be installed"
     );
     true
