@@ -42,7 +42,12 @@ fn demo_split(library: &Library) -> Split {
 }
 
 /// Builds an index of `library` learning from `training` (`None`: every theorem).
-fn index_of(library: &Library, split: &Split, training: Option<&[DeclId]>, dir: &Path) -> OpenIndex {
+fn index_of(
+    library: &Library,
+    split: &Split,
+    training: Option<&[DeclId]>,
+    dir: &Path,
+) -> OpenIndex {
     let config = BuildConfig {
         dense: DenseMode::Learned,
         training,
@@ -82,7 +87,8 @@ fn leaks(index: &OpenIndex, split: &Split) -> Vec<String> {
             let q = library.declaration(run.theorem);
             for (d, _) in &run.ranked {
                 let p = library.declaration(*d);
-                let later = p.file == q.file && p.statement_span.start.line >= q.statement_span.start.line;
+                let later =
+                    p.file == q.file && p.statement_span.start.line >= q.statement_span.start.line;
                 if *d == run.theorem || later {
                     found.push(format!(
                         "{} answers {} with {} (itself or later in its file)",
@@ -103,14 +109,26 @@ fn no_held_out_proof_reaches_the_evaluation_index() {
     let split = demo_split(&library);
     assert!(!split.test.is_empty() && !split.train.is_empty());
     let tmp = tempfile::tempdir().unwrap();
-    let index = index_of(&library, &split, Some(&split.train), &tmp.path().join("honest"));
-    assert!(index.dense.is_some(), "the evaluation index has the dense part");
+    let index = index_of(
+        &library,
+        &split,
+        Some(&split.train),
+        &tmp.path().join("honest"),
+    );
+    assert!(
+        index.dense.is_some(),
+        "the evaluation index has the dense part"
+    );
     assert!(!index.votable.is_empty(), "training proofs vote");
     let found = leaks(&index, &split);
     assert!(found.is_empty(), "held-out proofs leak: {found:#?}");
     // Training figures and the votable set are what was asked for, no more.
     for v in &index.votable {
-        assert!(split.is_training(*v), "{} votes but is not training", index.library.declaration(*v).name);
+        assert!(
+            split.is_training(*v),
+            "{} votes but is not training",
+            index.library.declaration(*v).name
+        );
     }
 }
 
@@ -139,15 +157,30 @@ fn the_leak_checker_catches_a_ranking_that_contains_the_query_itself() {
     let library = demo_library();
     let split = demo_split(&library);
     let tmp = tempfile::tempdir().unwrap();
-    let index = index_of(&library, &split, Some(&split.train), &tmp.path().join("honest"));
+    let index = index_of(
+        &library,
+        &split,
+        Some(&split.train),
+        &tmp.path().join("honest"),
+    );
     let mut queries = statement_queries(&index.library, &split.test);
     let mut caught = false;
     for q in &mut queries {
         // Pretend the query sits at the end of its file: everything there is accessible.
         q.place.line = None;
-        let runs = run_system(&index, std::slice::from_ref(q), System::Signal(Signal::Lexical), &split, 50, 1)
-            .expect("queries run");
+        let runs = run_system(
+            &index,
+            std::slice::from_ref(q),
+            System::Signal(Signal::Lexical),
+            &split,
+            50,
+            1,
+        )
+        .expect("queries run");
         caught |= runs[0].ranked.iter().any(|(d, _)| *d == q.theorem);
     }
-    assert!(caught, "no query found itself with the place removed: the rule could not fail");
+    assert!(
+        caught,
+        "no query found itself with the place removed: the rule could not fail"
+    );
 }

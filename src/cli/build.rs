@@ -7,13 +7,13 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
-use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
 use quarry::eval::tune_fusion;
+use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
 use quarry::index::dense::DenseMode;
 use quarry::index::{build_index_with, BuildConfig, FusionChoice};
+use quarry::library::{store, Library, Severity};
 use quarry::retrieve::fusion::FusionWeights;
 use quarry::retrieve::Signal;
-use quarry::library::{store, Library, Severity};
 
 /// Arguments of `quarry build`.
 #[derive(Args, Debug)]

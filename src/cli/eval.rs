@@ -71,7 +71,11 @@ fn parse_signal(s: &str) -> Result<Signal, String> {
 
 /// The depth of every ranked list: the largest cut-off asked for.
 fn depth_of(ks: &[usize]) -> usize {
-    ks.iter().copied().max().unwrap_or(100).clamp(1, quarry::retrieve::MAX_LIMIT)
+    ks.iter()
+        .copied()
+        .max()
+        .unwrap_or(100)
+        .clamp(1, quarry::retrieve::MAX_LIMIT)
 }
 
 /// Runs `quarry eval`.
@@ -225,7 +229,9 @@ fn tune_boosts(
 ) -> anyhow::Result<FieldBoosts> {
     let grid = [0.0f32, 0.5, 1.0, 2.0];
     let mut best = (f64::NEG_INFINITY, FieldBoosts::default());
-    println!("| name | conclusion | hypotheses | text | R@10 (validation) |\n|---:|---:|---:|---:|---:|");
+    println!(
+        "| name | conclusion | hypotheses | text | R@10 (validation) |\n|---:|---:|---:|---:|---:|"
+    );
     for &name in &grid {
         for &conclusion in &grid {
             for &hypotheses in &[0.0f32, 0.25, 0.5] {
@@ -239,10 +245,20 @@ fn tune_boosts(
                         hypotheses,
                         text,
                     };
-                    let runs = run_system(index, validation, System::Signal(Signal::Lexical), split, depth, seed)?;
+                    let runs = run_system(
+                        index,
+                        validation,
+                        System::Signal(Signal::Lexical),
+                        split,
+                        depth,
+                        seed,
+                    )?;
                     let m = summarise("lexical", validation, &runs, &[10]);
                     let r10 = m.recall.get(&10).copied().unwrap_or(0.0);
-                    println!("| {name} | {conclusion} | {hypotheses} | {text} | {:.2} |", r10 * 100.0);
+                    println!(
+                        "| {name} | {conclusion} | {hypotheses} | {text} | {:.2} |",
+                        r10 * 100.0
+                    );
                     if r10 > best.0 {
                         best = (r10, index.lexical_boosts);
                     }

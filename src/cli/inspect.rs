@@ -62,7 +62,8 @@ fn file_path(library: &Library, d: &Declaration) -> String {
 }
 
 fn names<'a>(library: &'a Library, ids: impl Iterator<Item = DeclId>) -> Vec<&'a str> {
-    ids.map(|id| library.declaration(id).name.as_str()).collect()
+    ids.map(|id| library.declaration(id).name.as_str())
+        .collect()
 }
 
 fn declaration_json<'a>(
@@ -137,7 +138,10 @@ pub fn run(args: InspectArgs) -> anyhow::Result<ExitCode> {
         }
         match hits.as_slice() {
             [] => {
-                eprintln!("error: no declaration named `{name}` in `{}`", args.index.display());
+                eprintln!(
+                    "error: no declaration named `{name}` in `{}`",
+                    args.index.display()
+                );
                 return Ok(ExitCode::from(super::EXIT_NOT_FOUND));
             }
             [id] => {
@@ -171,7 +175,11 @@ pub fn run(args: InspectArgs) -> anyhow::Result<ExitCode> {
 
 fn print_declaration(out: &mut impl Write, j: &DeclarationJson) -> std::io::Result<()> {
     writeln!(out, "{} ({})", j.name, j.kind)?;
-    writeln!(out, "  at {}:{}:{}  module {}", j.file, j.line, j.column, j.module)?;
+    writeln!(
+        out,
+        "  at {}:{}:{}  module {}",
+        j.file, j.line, j.column, j.module
+    )?;
     writeln!(out, "  statement: {}", j.statement)?;
     if !j.attributes.is_empty() {
         writeln!(out, "  attributes: {}", j.attributes.join(", "))?;
@@ -185,7 +193,11 @@ fn print_declaration(out: &mut impl Write, j: &DeclarationJson) -> std::io::Resu
     };
     list(out, "premises its proof uses", &j.proof_premises)?;
     list(out, "statement refers to", &j.statement_references)?;
-    list(out, "used by the proofs of", j.dependents.as_deref().unwrap_or(&[]))?;
+    list(
+        out,
+        "used by the proofs of",
+        j.dependents.as_deref().unwrap_or(&[]),
+    )?;
     let r = j.references;
     if r.unresolved + r.ambiguous + r.dot_on_local > 0 {
         writeln!(
@@ -377,6 +389,18 @@ fn print_learning(
                 per.join(", "),
                 num(&t["fused_recall"])
             )?;
+            if let Some(a) = t["signal_recall_100"].as_array() {
+                let per: Vec<String> = a
+                    .iter()
+                    .map(|p| format!("{} {}", p[0].as_str().unwrap_or("?"), num(&p[1])))
+                    .collect();
+                writeln!(
+                    out,
+                    "    validation recall@100: {}; fused {}",
+                    per.join(", "),
+                    num(&t["fused_recall_100"])
+                )?;
+            }
             if t["fell_back"] == true {
                 writeln!(
                     out,

@@ -105,7 +105,10 @@ pub fn goal_terms(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<Q
 
 /// The goal-side tokens of a theorem: the texts of [`goal_terms`].
 pub fn goal_tokens(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<String> {
-    goal_terms(library, tokenizer, id).into_iter().map(|t| t.text).collect()
+    goal_terms(library, tokenizer, id)
+        .into_iter()
+        .map(|t| t.text)
+        .collect()
 }
 
 /// The premise-side tokens of a declaration: its local name and statement, as the lexical
@@ -146,7 +149,12 @@ pub fn training_data(
         let tokens: Vec<String> = terms.iter().map(|t| t.text.clone()).collect();
         let used: HashSet<DeclId> = library.graph.premises(t).collect();
         let negatives: Vec<u32> = lexical
-            .search(&terms, &super::lexical::FieldBoosts::default(), None, NEGATIVE_POOL)?
+            .search(
+                &terms,
+                &super::lexical::FieldBoosts::default(),
+                None,
+                NEGATIVE_POOL,
+            )?
             .into_iter()
             .map(|h| h.0)
             .filter(|d| *d != t && !used.contains(d))
@@ -159,10 +167,7 @@ pub fn training_data(
         let mut used: Vec<DeclId> = used.into_iter().collect();
         used.sort();
         for p in used {
-            data.pairs.push(TrainingPair {
-                goal,
-                premise: p.0,
-            });
+            data.pairs.push(TrainingPair { goal, premise: p.0 });
             data.hard_negatives.push(negatives.clone());
         }
     }
@@ -198,10 +203,7 @@ pub fn build_dense(
         let goal = check.goals.len() as u32;
         check.goals.push(tokens);
         for p in library.graph.premises(v) {
-            check.pairs.push(TrainingPair {
-                goal,
-                premise: p.0,
-            });
+            check.pairs.push(TrainingPair { goal, premise: p.0 });
         }
     }
     let config = TrainConfig {
@@ -266,8 +268,15 @@ impl DensePart {
 
     /// Reads the dense part of `generation`, or `None` when it was built without one.
     /// The vectors must be one per declaration (`declarations`).
-    pub fn load(generation: &Generation, declarations: usize) -> Result<Option<DensePart>, DenseError> {
-        if !generation.manifest.parts.contains_key(crate::dense::index::ENCODER_PART) {
+    pub fn load(
+        generation: &Generation,
+        declarations: usize,
+    ) -> Result<Option<DensePart>, DenseError> {
+        if !generation
+            .manifest
+            .parts
+            .contains_key(crate::dense::index::ENCODER_PART)
+        {
             return Ok(None);
         }
         let encoder = load_encoder(generation)?;
@@ -297,7 +306,12 @@ impl DensePart {
     /// The `n` declarations nearest to `goal` (already encoded) among those `allowed`
     /// admits, best first: the search goes deeper (doubling) until it has `n` allowed hits
     /// or has seen every vector.
-    pub fn search_allowed(&self, goal: &[f32], allowed: &PremiseFilter, n: usize) -> Vec<(DeclId, f32)> {
+    pub fn search_allowed(
+        &self,
+        goal: &[f32],
+        allowed: &PremiseFilter,
+        n: usize,
+    ) -> Vec<(DeclId, f32)> {
         let total = self.vectors.vectors().len();
         if n == 0 || total == 0 || goal.iter().all(|x| *x == 0.0) {
             return Vec::new();
@@ -342,7 +356,11 @@ mod tests {
             .collect();
         let part = DensePart {
             encoder: LearnedEncoder::initial(
-                EncoderSettings { buckets: 8, dim: 2, seed: 1 },
+                EncoderSettings {
+                    buckets: 8,
+                    dim: 2,
+                    seed: 1,
+                },
                 &[vec!["ledger".to_string()]],
             )
             .expect("tiny encoder"),
@@ -360,7 +378,11 @@ mod tests {
         let mut only_last = PremiseFilter::none(5);
         only_last.insert(DeclId(4));
         let hits = part.search_allowed(&[1.0, 0.0], &only_last, 1);
-        assert_eq!(hits.len(), 1, "a search deeper than the first fetch finds it");
+        assert_eq!(
+            hits.len(),
+            1,
+            "a search deeper than the first fetch finds it"
+        );
         assert_eq!(hits[0].0, DeclId(4));
     }
 }

@@ -18,8 +18,13 @@ use crate::retrieve::Signal;
 /// The constant `k` of the paper.
 pub const DEFAULT_K: f32 = 60.0;
 
-/// The cut-off the weights are tuned for.
+/// The cut-off the weights must not lose at: the fused recall@10 must beat the best
+/// single signal's.
 pub const TUNED_AT: usize = 10;
+/// The deep cut-off the weights are also chosen for: among weightings that beat the best
+/// signal at recall@10, the one with the largest recall@10 + recall@100 wins (a weighting
+/// tuned for recall@10 alone lets one signal fill the whole top 100).
+pub const DEEP_AT: usize = 100;
 
 /// The weights tried for each signal by [`grid_search`].
 pub const WEIGHT_GRID: [f32; 6] = [0.0, 0.25, 0.5, 1.0, 2.0, 4.0];
@@ -88,6 +93,12 @@ pub struct FusionTuning {
     pub signal_recall: Vec<(String, f64)>,
     /// Recall@10 of the fusion with the chosen weights.
     pub fused_recall: f64,
+    /// Recall@100 of each signal alone on those queries.
+    #[serde(default)]
+    pub signal_recall_100: Vec<(String, f64)>,
+    /// Recall@100 of the fusion with the chosen weights.
+    #[serde(default)]
+    pub fused_recall_100: f64,
     /// True when no weighting beat the best signal and the weights reproduce it alone.
     pub fell_back: bool,
 }
@@ -97,11 +108,21 @@ fn recall_at(ranked: &[DeclId], relevant: &HashSet<DeclId>, k: usize) -> f64 {
     if relevant.is_empty() {
         return 0.0;
     }
-    let found = ranked.iter().take(k).filter(|d| relevant.contains(d)).count();
+    let found = ranked
+        .iter()
+        .take(k)
+        .filter(|d| relevant.contains(d))
+        .count();
     found as f64 / relevant.len() as f64
 }
 
-fn mean_recall(queries: &[TuningQuery], relevant: &[HashSet<DeclId>], weights: &[f32], k: f32) -> f64 {
+/// Mean (recall@10, recall@100) of the fusion with `weights`.
+fn mean_recall(
+    queries: &[TuningQuery],
+    relevant: &[HashSet<DeclId>],
+    weights: &[f32],
+    k: f32,
+) -> (f64, f64) {
     let n = queries.len().max(1) as f64;
     queries
         .iter()
@@ -115,50 +136,65 @@ fn mean_recall(queries: &[TuningQuery], relevant: &[HashSet<DeclId>], weights: &
                 .collect();
             let fused: Vec<DeclId> = reciprocal_rank_fusion(&lists, k)
                 .into_iter()
-                .take(TUNED_AT)
+                .take(DEEP_AT)
                 .map(|f| f.0)
                 .collect();
-            recall_at(&fused, rel, TUNED_AT)
+            (
+                recall_at(&fused, rel, TUNED_AT),
+                recall_at(&fused, rel, DEEP_AT),
+            )
         })
-        .sum::<f64>()
-        / n
+        .fold((0.0, 0.0), |acc, r| (acc.0 + r.0 / n, acc.1 + r.1 / n))
 }
 
-/// Every weighting of `signals` over [`WEIGHT_GRID`] (not all zero), tried on `queries`
-/// by recall@10 of the fused list; the best wins, ties going to the earlier weighting. A
-/// weighting must beat the best single signal strictly, else the weights are 1 for that
-/// signal and 0 for the others (`fell_back`).
+/// Every weighting of `signals` over [`WEIGHT_GRID`] that uses two signals or more, tried
+/// on `queries`: among those whose fused recall@10 beats the best single signal's
+/// strictly, the largest recall@10 + recall@100 wins, ties going to the earlier weighting.
+/// When none beats it, the weights are 1 for that signal and 0 for the others
+/// (`fell_back`).
 pub fn grid_search(signals: &[Signal], queries: &[TuningQuery], k: f32) -> FusionTuning {
     let relevant: Vec<HashSet<DeclId>> = queries
         .iter()
         .map(|q| q.relevant.iter().copied().collect())
         .collect();
     let n = queries.len().max(1) as f64;
-    let signal_recall: Vec<(String, f64)> = signals
-        .iter()
-        .enumerate()
-        .map(|(i, s)| {
-            let r = queries
-                .iter()
-                .zip(&relevant)
-                .map(|(q, rel)| q.lists.get(i).map_or(0.0, |l| recall_at(l, rel, TUNED_AT)))
-                .sum::<f64>()
-                / n;
-            (s.as_str().to_string(), r)
-        })
-        .collect();
-    let (best_signal, best_single) = signal_recall
-        .iter()
-        .enumerate()
-        .fold((0, f64::NEG_INFINITY), |acc, (i, (_, r))| if *r > acc.1 { (i, *r) } else { acc });
-    let mut best: Option<(f64, Vec<f32>)> = None;
+    let single = |at: usize| -> Vec<(String, f64)> {
+        signals
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                let r = queries
+                    .iter()
+                    .zip(&relevant)
+                    .map(|(q, rel)| q.lists.get(i).map_or(0.0, |l| recall_at(l, rel, at)))
+                    .sum::<f64>()
+                    / n;
+                (s.as_str().to_string(), r)
+            })
+            .collect()
+    };
+    let signal_recall = single(TUNED_AT);
+    let signal_recall_100 = single(DEEP_AT);
+    let (best_signal, best_single) =
+        signal_recall
+            .iter()
+            .enumerate()
+            .fold((0, f64::NEG_INFINITY), |acc, (i, (_, r))| {
+                if *r > acc.1 {
+                    (i, *r)
+                } else {
+                    acc
+                }
+            });
+    let mut best: Option<((f64, f64), Vec<f32>)> = None;
     let mut weights = vec![0usize; signals.len()];
     loop {
         let w: Vec<f32> = weights.iter().map(|&i| WEIGHT_GRID[i]).collect();
         // Only weightings that use at least two signals are fusions.
         if w.iter().filter(|&&x| x > 0.0).count() >= 2 {
             let r = mean_recall(queries, &relevant, &w, k);
-            if best.as_ref().is_none_or(|b| r > b.0) {
+            let better = best.as_ref().is_none_or(|b| r.0 + r.1 > b.0 .0 + b.0 .1);
+            if r.0 > best_single && better {
                 best = Some((r, w));
             }
         }
@@ -188,22 +224,27 @@ pub fn grid_search(signals: &[Signal], queries: &[TuningQuery], k: f32) -> Fusio
             .collect(),
     };
     match best {
-        Some((r, w)) if r > best_single => FusionTuning {
+        Some((r, w)) => FusionTuning {
             weights: named(&w),
             queries: queries.len(),
             signal_recall,
-            fused_recall: r,
+            fused_recall: r.0,
+            signal_recall_100,
+            fused_recall_100: r.1,
             fell_back: false,
         },
         _ => {
             let w: Vec<f32> = (0..signals.len())
                 .map(|i| if i == best_signal { 1.0 } else { 0.0 })
                 .collect();
+            let fused_recall_100 = signal_recall_100.get(best_signal).map_or(0.0, |r| r.1);
             FusionTuning {
                 weights: named(&w),
                 queries: queries.len(),
                 signal_recall,
                 fused_recall: best_single.max(0.0),
+                signal_recall_100,
+                fused_recall_100,
                 fell_back: true,
             }
         }

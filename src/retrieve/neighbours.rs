@@ -147,7 +147,18 @@ mod tests {
     fn ledger() -> DependencyGraph {
         DependencyGraph::from_edges(
             8,
-            &[(0, 4), (0, 5), (0, 7), (1, 4), (1, 6), (1, 7), (2, 7), (3, 5), (3, 6), (3, 7)],
+            &[
+                (0, 4),
+                (0, 5),
+                (0, 7),
+                (1, 4),
+                (1, 6),
+                (1, 7),
+                (2, 7),
+                (3, 5),
+                (3, 6),
+                (3, 7),
+            ],
             &[],
         )
     }
@@ -164,13 +175,23 @@ mod tests {
         let g = ledger();
         let usage = PremiseUsage::count(&g, 8, &[DeclId(0), DeclId(1), DeclId(2)]);
         assert_eq!(usage.uses(DeclId(7)), 3);
-        assert_eq!(usage.uses(DeclId(5)), 1, "the non-voting proof 3 is not counted");
+        assert_eq!(
+            usage.uses(DeclId(5)),
+            1,
+            "the non-voting proof 3 is not counted"
+        );
         let params = VoteParams {
             neighbours: 2,
             sharpness: 2.0,
             self_weight: 0.0,
         };
-        let out = neighbour_votes(&g, &usage, &[(DeclId(0), 1.0), (DeclId(1), 0.5)], None, &params);
+        let out = neighbour_votes(
+            &g,
+            &usage,
+            &[(DeclId(0), 1.0), (DeclId(1), 0.5)],
+            None,
+            &params,
+        );
         let order: Vec<u32> = out.iter().map(|v| v.id.0).collect();
         assert_eq!(order, vec![5, 4, 7, 6]);
         let expect = [1.3863, 1.1454, 0.8664, 0.3466];
