@@ -200,10 +200,7 @@ pub fn grid_search(signals: &[Signal], queries: &[TuningQuery], k: f32) -> Fusio
         }
         // Next weighting, odometer order.
         let mut pos = 0;
-        loop {
-            let Some(slot) = weights.get_mut(pos) else {
-                break;
-            };
+        while let Some(slot) = weights.get_mut(pos) {
             *slot += 1;
             if *slot < WEIGHT_GRID.len() {
                 break;

@@ -101,7 +101,7 @@ pub fn neighbour_votes(
     let mut scores: HashMap<DeclId, (f32, Vec<(DeclId, f32)>)> = HashMap::new();
     let ok = |id: DeclId| allowed.is_none_or(|f| f.contains(id));
     for &(n, sim) in neighbours {
-        if !(sim > 0.0) {
+        if sim.is_nan() || sim <= 0.0 {
             continue;
         }
         let w = sim.powf(params.sharpness);
