@@ -18,13 +18,18 @@ pub const EXIT_BAD_GOAL: u8 = 3;
 /// Arguments of `quarry ask`.
 #[derive(Args, Debug)]
 pub struct AskArgs {
-    /// The index folder written by `quarry build`.
-    #[arg(value_name = "INDEX_DIR")]
-    index: PathBuf,
-    /// The goal: an editor's goal display, a statement, or a declaration header.
-    /// `-` or nothing reads it from standard input.
-    #[arg(value_name = "GOAL")]
-    goal: Option<String>,
+    /// The index folder written by `quarry build` (not given with --server), then the goal:
+    /// an editor's goal display, a statement, or a declaration header. A goal of `-` or
+    /// none reads it from standard input.
+    #[arg(value_name = "INDEX_DIR GOAL", num_args = 0..=2)]
+    positional: Vec<String>,
+    /// Ask a running `quarry serve` at this URL (`http://127.0.0.1:7341`) instead of
+    /// opening an index.
+    #[arg(long, value_name = "URL")]
+    server: Option<String>,
+    /// With --server: a file holding the server's bearer token.
+    #[arg(long, value_name = "PATH", requires = "server")]
+    token_file: Option<PathBuf>,
     /// How many premises to show (1 to 200).
     #[arg(long, default_value_t = quarry::retrieve::DEFAULT_LIMIT)]
     limit: usize,
@@ -152,9 +157,19 @@ fn absolute_path(index: &OpenIndex, id: quarry::library::DeclId) -> String {
 
 /// Runs `quarry ask`.
 pub fn run(args: AskArgs) -> anyhow::Result<ExitCode> {
-    let goal = read_goal(args.goal.as_deref())?;
-    let index = OpenIndex::open(&args.index)
-        .with_context(|| format!("cannot open the index `{}`", args.index.display()))?;
+    if let Some(url) = args.server.clone() {
+        if args.positional.len() > 1 {
+            anyhow::bail!("with --server, give only the goal (the server has its index)");
+        }
+        let goal = read_goal(args.positional.first().map(String::as_str))?;
+        return run_remote(&url, &args, goal);
+    }
+    let Some(index_dir) = args.positional.first().map(PathBuf::from) else {
+        anyhow::bail!("give the index folder (or --server URL) and the goal");
+    };
+    let goal = read_goal(args.positional.get(1).map(String::as_str))?;
+    let index = OpenIndex::open(&index_dir)
+        .with_context(|| format!("cannot open the index `{}`", index_dir.display()))?;
     let place = match (&args.module, &args.file) {
         (Some(m), _) => Some(QueryPlace {
             module: module_by_name(&index.library, m)?,
@@ -208,6 +223,129 @@ pub fn run(args: AskArgs) -> anyhow::Result<ExitCode> {
     }
     out.flush()?;
     Ok(ExitCode::SUCCESS)
+}
+
+/// Sends the request to a running server and prints its answer.
+fn run_remote(url: &str, args: &AskArgs, goal: String) -> anyhow::Result<ExitCode> {
+    let token = match &args.token_file {
+        Some(path) => Some(super::remote::token_from_file(path)?),
+        None => None,
+    };
+    let kinds: Option<Vec<&str>> = if args.theorems {
+        Some(vec!["theorem"])
+    } else {
+        args.kinds
+            .as_ref()
+            .map(|k| k.iter().map(|k| k.as_str()).collect())
+    };
+    let mut body = serde_json::json!({
+        "goal": goal,
+        "limit": args.limit,
+        "explain": args.explain,
+        "all_goals": args.all_goals,
+    });
+    let fields = [
+        ("file", args.file.clone().map(serde_json::Value::from)),
+        ("module", args.module.clone().map(serde_json::Value::from)),
+        ("line", args.line.map(serde_json::Value::from)),
+        ("kinds", kinds.map(|k| serde_json::json!(k))),
+        (
+            "signals",
+            args.signals
+                .as_ref()
+                .map(|s| serde_json::json!(s.iter().map(|s| s.as_str()).collect::<Vec<_>>())),
+        ),
+    ];
+    for (name, value) in fields {
+        if let Some(v) = value {
+            body[name] = v;
+        }
+    }
+    let answer = match super::remote::ask_remote(url, &body, token.as_deref()) {
+        Ok(a) => a,
+        Err(super::remote::RemoteError::Refused { code, message, .. }) => {
+            eprintln!("error: the server refused the request ({code}): {message}");
+            let exit = if code.starts_with("goal_") || code == "no_goals" {
+                EXIT_BAD_GOAL
+            } else if code == "unknown_declaration" {
+                super::EXIT_NOT_FOUND
+            } else {
+                super::EXIT_FAILURE
+            };
+            return Ok(ExitCode::from(exit));
+        }
+        Err(e) => return Err(e.into()),
+    };
+    let stdout = std::io::stdout();
+    let mut out = std::io::BufWriter::new(stdout.lock());
+    if args.json {
+        serde_json::to_writer_pretty(&mut out, &answer)?;
+        writeln!(out)?;
+    } else {
+        print_remote_table(&mut out, &answer, args.explain)?;
+    }
+    out.flush()?;
+    Ok(ExitCode::SUCCESS)
+}
+
+/// The server's answer as the same table `ask` prints for a local index.
+fn print_remote_table(
+    out: &mut impl Write,
+    answer: &serde_json::Value,
+    explain: bool,
+) -> std::io::Result<()> {
+    let empty = Vec::new();
+    let premises = answer["premises"].as_array().unwrap_or(&empty);
+    if premises.is_empty() {
+        return writeln!(out, "no premise matched (searched {} declarations)", answer["candidates"]);
+    }
+    let text = |v: &serde_json::Value| v.as_str().unwrap_or("").to_string();
+    let name_width = premises
+        .iter()
+        .map(|p| text(&p["name"]).chars().count())
+        .max()
+        .unwrap_or(10)
+        .clamp(10, 48);
+    writeln!(
+        out,
+        "{:>3}  {:<name_width$}  {:<11}  {:<50}  where",
+        "#", "premise", "kind", "statement"
+    )?;
+    for p in premises {
+        writeln!(
+            out,
+            "{:>3}  {:<name_width$}  {:<11}  {:<50}  {}:{}",
+            p["rank"].as_u64().unwrap_or(0),
+            clip(&text(&p["name"]), name_width),
+            text(&p["kind"]),
+            clip(&text(&p["statement"]), 50),
+            text(&p["file"]),
+            p["line"].as_u64().unwrap_or(0)
+        )?;
+        if explain {
+            let words = |key: &str| -> String {
+                p[key]
+                    .as_array()
+                    .map(|a| a.iter().map(text).collect::<Vec<_>>().join(" "))
+                    .unwrap_or_default()
+            };
+            writeln!(
+                out,
+                "     score {}; matched: {}; voters: {}",
+                p["score"],
+                words("matched_terms"),
+                words("voters")
+            )?;
+        }
+    }
+    writeln!(
+        out,
+        "{} of {} candidate declarations in {:.2} ms (build {})",
+        premises.len(),
+        answer["candidates"],
+        answer["elapsed_ms"].as_f64().unwrap_or(0.0),
+        text(&answer["index"]["build_id"])
+    )
 }
 
 fn print_json(

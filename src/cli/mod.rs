@@ -14,7 +14,6 @@ mod eval;
 mod harvest;
 mod inspect;
 // `ask --server` calls it (ask.rs).
-#[allow(dead_code)]
 mod remote;
 mod serve;
 
