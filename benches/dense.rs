@@ -86,7 +86,7 @@ fn bench_train(c: &mut Criterion) {
     let mut group = c.benchmark_group("train");
     group.sample_size(10);
     group.bench_function(
-        &format!(
+        format!(
             "one epoch, {} pairs, 2^16 buckets, dim 256, batch 64 (includes initialisation)",
             data.pairs.len()
         ),

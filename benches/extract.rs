@@ -51,7 +51,11 @@ fn bench_extract(c: &mut Criterion) {
     group.sample_size(10);
     group.throughput(Throughput::Bytes(bytes));
     group.bench_function(format!("build_library/{name}"), |b| {
-        b.iter(|| build_library(&opts).map(|l| l.declarations.len()).unwrap_or(0))
+        b.iter(|| {
+            build_library(&opts)
+                .map(|l| l.declarations.len())
+                .unwrap_or(0)
+        })
     });
     group.finish();
 }

@@ -1,6 +1,7 @@
 //! The lexical path on the Coq standard library index (Debian's `libcoq-stdlib`; the demo
 //! library when it is not installed): tokenizing a goal, parsing a goal display, opening
-//! the index, ranking a typical goal, and refusing a 10 MB goal.
+//! the index, ranking a typical goal (fused, and with the lexical signal alone), and refusing
+//! a 10 MB goal.
 //! `cargo bench --bench lexical`; figures in docs/performance.md.
 
 use std::path::PathBuf;
@@ -11,7 +12,7 @@ use quarry::extract::{build_library, BuildOptions, CoqPrefix};
 use quarry::index::{build_index, OpenIndex};
 use quarry::library::DeclKind;
 use quarry::query::parse_goal;
-use quarry::retrieve::{rank, RankRequest};
+use quarry::retrieve::{rank, RankRequest, Signal};
 use quarry::tokens::Tokenizer;
 
 fn options() -> (String, BuildOptions) {
@@ -39,7 +40,8 @@ fn options() -> (String, BuildOptions) {
     }
 }
 
-const COQ_GOAL: &str = "n, m, p : nat\nH : n <= m\nH0 : m < p\n============================\nn + 0 <= p * 1 + m";
+const COQ_GOAL: &str =
+    "n, m, p : nat\nH : n <= m\nH0 : m < p\n============================\nn + 0 <= p * 1 + m";
 
 fn bench_lexical(c: &mut Criterion) {
     let (name, opts) = options();
@@ -100,17 +102,38 @@ fn bench_lexical(c: &mut Criterion) {
             r.map(|r| r.premises.len()).unwrap_or(0)
         })
     });
+    let mut j = 0;
+    group.bench_function(format!("rank-lexical-only/{name}/statement-goals"), |b| {
+        b.iter(|| {
+            j = (j + 1) % goals.len();
+            let mut request = RankRequest::new(goals[j].clone());
+            request.signals = Some(vec![Signal::Lexical]);
+            rank(&index, &request)
+                .map(|r| r.premises.len())
+                .unwrap_or(0)
+        })
+    });
     group.bench_function(format!("rank/{name}/coq-goal-display"), |b| {
-        b.iter(|| rank(&index, &RankRequest::new(COQ_GOAL)).map(|r| r.premises.len()).unwrap_or(0))
+        b.iter(|| {
+            rank(&index, &RankRequest::new(COQ_GOAL))
+                .map(|r| r.premises.len())
+                .unwrap_or(0)
+        })
     });
     let huge = "x".repeat(10 << 20);
     // `rank` refuses before any other work: parsing is its first step after the limit check.
-    group.bench_function("parse/refuse-10MB-goal", |b| b.iter(|| parse_goal(&huge).is_err()));
+    group.bench_function("parse/refuse-10MB-goal", |b| {
+        b.iter(|| parse_goal(&huge).is_err())
+    });
     group.sample_size(10);
     group.bench_function(format!("open/{name}"), |b| {
         b.iter_batched(
             || (),
-            |_| OpenIndex::open(dir.path()).map(|i| i.library.declarations.len()).unwrap_or(0),
+            |_| {
+                OpenIndex::open(dir.path())
+                    .map(|i| i.library.declarations.len())
+                    .unwrap_or(0)
+            },
             BatchSize::PerIteration,
         )
     });

@@ -12,9 +12,12 @@
 //! - [`query`] parses a pasted goal (Lean, Coq, Isabelle display, statement or header).
 
 pub mod dense;
+pub mod eval;
 pub mod extract;
 pub mod harvest;
+pub mod index;
 pub mod library;
 pub mod query;
-pub mod tokens;
+pub mod retrieve;
 pub mod server;
+pub mod tokens;

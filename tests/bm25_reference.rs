@@ -14,9 +14,9 @@ use std::sync::Arc;
 
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
 use quarry::index::lexical::{self, FieldBoosts, LexicalIndex};
-use quarry::query::QueryTerm;
 use quarry::index::{library_tokenizer, tokenize_fn};
 use quarry::library::DeclKind;
+use quarry::query::QueryTerm;
 
 const BM25S: &str = "bm25s==0.3.16";
 const QUERIES: usize = 200;
@@ -59,7 +59,10 @@ fn bm25_agrees_with_bm25s_on_the_coq_standard_library() {
         progress: false,
     })
     .expect("the standard library builds");
-    assert!(library.declarations.len() > 10_000, "too few declarations extracted");
+    assert!(
+        library.declarations.len() > 10_000,
+        "too few declarations extracted"
+    );
     let tokenizer = Arc::new(library_tokenizer(&library));
     let tokenize = tokenize_fn(tokenizer.clone());
     let tmp = tempfile::tempdir().unwrap();
@@ -165,15 +168,20 @@ fn bm25_agrees_with_bm25s_on_the_coq_standard_library() {
             .iter()
             .map(|v| v.as_f64().unwrap())
             .collect();
-        let k = top.len().min(TOP).max(1) as f64;
+        let k = top.len().clamp(1, TOP) as f64;
         overlap_sum += o.iter().filter(|(id, _)| top.contains(id)).count() as f64 / k;
         // Documents tied with bm25s's k-th score are equally correct answers.
         let kth = top_scores.last().copied().unwrap_or(0.0);
-        tie_aware_sum += of_ours.iter().filter(|&&s| s >= kth - 1e-9 * kth.abs()).count() as f64 / k;
+        tie_aware_sum += of_ours
+            .iter()
+            .filter(|&&s| s >= kth - 1e-9 * kth.abs())
+            .count() as f64
+            / k;
         for ((_, ours_score), reference) in o.iter().zip(&of_ours) {
             let ours_lucene = *ours_score as f64 / 2.2;
             if *reference > 0.0 {
-                largest_rel_diff = largest_rel_diff.max((ours_lucene - reference).abs() / reference);
+                largest_rel_diff =
+                    largest_rel_diff.max((ours_lucene - reference).abs() / reference);
             }
         }
     }

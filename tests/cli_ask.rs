@@ -16,7 +16,13 @@ const GOAL: &str = "b : buffer nat\nx : nat\nH : is_full b = false\n============
 fn demo_index(dir: &Path) -> std::path::PathBuf {
     let out = dir.join("idx");
     let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures");
-    let o = quarry(&["build", fixtures.to_str().unwrap(), "--out", out.to_str().unwrap(), "-q"]);
+    let o = quarry(&[
+        "build",
+        fixtures.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "-q",
+    ]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     out
 }
@@ -50,16 +56,25 @@ fn a_coq_goal_display_is_answered_with_the_lemma_that_closes_it() {
     let out = String::from_utf8_lossy(&o.stdout);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let first = out.lines().nth(1).unwrap_or("");
-    assert!(first.contains("RingBuffer.Lemmas.size_push_not_full"), "{out}");
+    assert!(
+        first.contains("RingBuffer.Lemmas.size_push_not_full"),
+        "{out}"
+    );
     assert!(first.contains("coq/Lemmas.v:"), "{out}");
 
     let o = quarry(&["ask", idx.to_str().unwrap(), GOAL, "--json", "--limit", "3"]);
     assert!(o.status.success());
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["goal"]["format"], "coq");
-    assert_eq!(v["goal"]["goals"][0]["conclusion"], "size (push x b) = S (size b)");
+    assert_eq!(
+        v["goal"]["goals"][0]["conclusion"],
+        "size (push x b) = S (size b)"
+    );
     assert_eq!(v["premises"].as_array().unwrap().len(), 3);
-    assert_eq!(v["premises"][0]["name"], "RingBuffer.Lemmas.size_push_not_full");
+    assert_eq!(
+        v["premises"][0]["name"],
+        "RingBuffer.Lemmas.size_push_not_full"
+    );
     // Hypothesis names are never query terms.
     let terms: Vec<&str> = v["terms"]
         .as_array()
@@ -67,11 +82,24 @@ fn a_coq_goal_display_is_answered_with_the_lemma_that_closes_it() {
         .iter()
         .map(|t| t[0].as_str().unwrap())
         .collect();
-    assert!(!terms.contains(&"h") && terms.contains(&"size"), "{terms:?}");
+    assert!(
+        !terms.contains(&"h") && terms.contains(&"size"),
+        "{terms:?}"
+    );
 
-    let o = quarry(&["ask", idx.to_str().unwrap(), GOAL, "--show-tokens", "--limit", "1"]);
+    let o = quarry(&[
+        "ask",
+        idx.to_str().unwrap(),
+        GOAL,
+        "--show-tokens",
+        "--limit",
+        "1",
+    ]);
     let out = String::from_utf8_lossy(&o.stdout);
-    assert!(out.contains("goal read as coq") && out.contains("tokens:"), "{out}");
+    assert!(
+        out.contains("goal read as coq") && out.contains("tokens:"),
+        "{out}"
+    );
 }
 
 #[test]
@@ -81,14 +109,30 @@ fn a_place_restricts_the_answers_to_what_is_accessible_there() {
     // At the first line of Core.v nothing of the ring buffer is declared yet: no premise of
     // RingBuffer.Lemmas may answer.
     let o = quarry(&[
-        "ask", idx.to_str().unwrap(), GOAL, "--file", "coq/Core.v", "--line", "1", "--json",
+        "ask",
+        idx.to_str().unwrap(),
+        GOAL,
+        "--file",
+        "coq/Core.v",
+        "--line",
+        "1",
+        "--json",
     ]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     for p in v["premises"].as_array().unwrap() {
-        assert!(!p["name"].as_str().unwrap().starts_with("RingBuffer."), "{p}");
+        assert!(
+            !p["name"].as_str().unwrap().starts_with("RingBuffer."),
+            "{p}"
+        );
     }
-    let o = quarry(&["ask", idx.to_str().unwrap(), GOAL, "--file", "no/such/File.v"]);
+    let o = quarry(&[
+        "ask",
+        idx.to_str().unwrap(),
+        GOAL,
+        "--file",
+        "no/such/File.v",
+    ]);
     assert_eq!(o.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&o.stderr).contains("no/such/File.v"));
 }
@@ -115,7 +159,15 @@ fn ask_with_server_gives_the_same_first_answer_as_the_local_index() {
     let server = Server::start(&idx, &[]);
     let local = quarry(&["ask", idx.to_str().unwrap(), GOAL, "--json", "--limit", "5"]);
     let local: serde_json::Value = serde_json::from_slice(&local.stdout).unwrap();
-    let o = quarry(&["ask", "--server", &server.base, GOAL, "--json", "--limit", "5"]);
+    let o = quarry(&[
+        "ask",
+        "--server",
+        &server.base,
+        GOAL,
+        "--json",
+        "--limit",
+        "5",
+    ]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let remote: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let names = |v: &serde_json::Value| -> Vec<String> {

@@ -21,7 +21,12 @@ fn build_and_inspect_the_demo_library() {
     let tmp = tempfile::tempdir().unwrap();
     let out = tmp.path().join("idx");
     let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures");
-    let o = quarry(&["build", fixtures.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        fixtures.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     assert!(o.status.success(), "build failed: {}", text(&o.stderr));
     assert!(text(&o.stdout).contains("declarations"));
 
@@ -38,7 +43,15 @@ fn build_and_inspect_the_demo_library() {
         .map(|l| serde_json::from_str(l).unwrap())
         .collect();
     assert_eq!(lines.len() as u64, n);
-    for field in ["name", "kind", "module", "file", "line", "statement", "proof_premises"] {
+    for field in [
+        "name",
+        "kind",
+        "module",
+        "file",
+        "line",
+        "statement",
+        "proof_premises",
+    ] {
         assert!(lines[0].get(field).is_some(), "--all lacks `{field}`");
     }
     // One declaration by its full name, text and JSON.
@@ -51,7 +64,11 @@ fn build_and_inspect_the_demo_library() {
     assert_eq!(one["name"], name.as_str());
     assert!(one.get("dependents").is_some());
 
-    let o = quarry(&["inspect", out.to_str().unwrap(), "No.Such.declaration_anywhere"]);
+    let o = quarry(&[
+        "inspect",
+        out.to_str().unwrap(),
+        "No.Such.declaration_anywhere",
+    ]);
     assert_eq!(o.status.code(), Some(4));
     assert!(text(&o.stderr).contains("No.Such.declaration_anywhere"));
 
@@ -59,7 +76,12 @@ fn build_and_inspect_the_demo_library() {
     assert!(o.status.success(), "{}", text(&o.stderr));
 
     // A second build replaces the first atomically and keeps it as the previous generation.
-    let o = quarry(&["build", fixtures.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        fixtures.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     assert!(o.status.success());
     let gens = std::fs::read_dir(&out)
         .unwrap()
@@ -89,10 +111,21 @@ fn bad_files_are_reported_and_skipped_and_the_rest_is_read() {
     std::fs::write(lib.join("Empty.v"), b"").unwrap();
     std::fs::write(lib.join("Huge.v"), vec![b'a'; (1 << 20) + 10]).unwrap();
     let out = tmp.path().join("idx");
-    let o = quarry(&["build", lib.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        lib.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     let err = text(&o.stderr);
-    assert!(o.status.success(), "build should succeed with warnings: {err}");
-    assert!(err.contains("Latin1.v:1") && err.contains("not UTF-8"), "{err}");
+    assert!(
+        o.status.success(),
+        "build should succeed with warnings: {err}"
+    );
+    assert!(
+        err.contains("Latin1.v:1") && err.contains("not UTF-8"),
+        "{err}"
+    );
     assert!(err.contains("Blob.v:1") && err.contains("NUL"), "{err}");
     assert!(err.contains("Empty.v") && err.contains("empty"), "{err}");
     assert!(err.contains("Huge.v:1") && err.contains("limit"), "{err}");
@@ -109,12 +142,22 @@ fn nothing_readable_fails_and_writes_nothing() {
     std::fs::create_dir_all(&lib).unwrap();
     std::fs::write(lib.join("Blob.lean"), b"\x00\x01\x02").unwrap();
     let out = tmp.path().join("idx");
-    let o = quarry(&["build", lib.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        lib.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o.stderr).contains("could be read"));
     assert!(!out.exists());
 
-    let o = quarry(&["build", tmp.path().join("missing").to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        tmp.path().join("missing").to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o.stderr).contains("does not exist"));
 }
@@ -126,10 +169,18 @@ fn a_folder_that_is_not_an_index_is_never_overwritten_or_opened() {
     std::fs::create_dir_all(&precious).unwrap();
     std::fs::write(precious.join("thesis.tex"), "keep me").unwrap();
     let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures");
-    let o = quarry(&["build", fixtures.to_str().unwrap(), "--out", precious.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        fixtures.to_str().unwrap(),
+        "--out",
+        precious.to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o.stderr).contains("refusing"));
-    assert_eq!(std::fs::read_to_string(precious.join("thesis.tex")).unwrap(), "keep me");
+    assert_eq!(
+        std::fs::read_to_string(precious.join("thesis.tex")).unwrap(),
+        "keep me"
+    );
     assert_eq!(std::fs::read_dir(&precious).unwrap().count(), 1);
 
     let o = quarry(&["inspect", precious.to_str().unwrap()]);
@@ -142,7 +193,12 @@ fn a_damaged_index_is_refused_with_the_file_named() {
     let tmp = tempfile::tempdir().unwrap();
     let out = tmp.path().join("idx");
     let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures");
-    let o = quarry(&["build", fixtures.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    let o = quarry(&[
+        "build",
+        fixtures.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
     assert!(o.status.success());
     let current = std::fs::read_to_string(out.join("CURRENT")).unwrap();
     let gen = out.join(current.trim());
@@ -154,7 +210,10 @@ fn a_damaged_index_is_refused_with_the_file_named() {
     let o = quarry(&["inspect", out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(1));
     let err = text(&o.stderr);
-    assert!(err.contains("library.bin") && err.contains("checksum"), "{err}");
+    assert!(
+        err.contains("library.bin") && err.contains("checksum"),
+        "{err}"
+    );
     let o = quarry(&["inspect", out.to_str().unwrap(), "--verify"]);
     assert_eq!(o.status.code(), Some(1));
 
@@ -166,8 +225,15 @@ fn a_damaged_index_is_refused_with_the_file_named() {
     // A wrong format version is refused with both versions named.
     let manifest = gen.join("manifest.json");
     let m = std::fs::read_to_string(&manifest).unwrap();
-    std::fs::write(&manifest, m.replace("\"format_version\": 1", "\"format_version\": 99")).unwrap();
+    std::fs::write(
+        &manifest,
+        m.replace("\"format_version\": 1", "\"format_version\": 99"),
+    )
+    .unwrap();
     let o = quarry(&["inspect", out.to_str().unwrap()]);
     let err = text(&o.stderr);
-    assert!(err.contains("version 99") && err.contains("manifest.json"), "{err}");
+    assert!(
+        err.contains("version 99") && err.contains("manifest.json"),
+        "{err}"
+    );
 }

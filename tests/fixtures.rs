@@ -41,7 +41,11 @@ fn render(library: &Library) -> Vec<String> {
             edges.push(format!("proof {} {}", d.name, library.declaration(p).name));
         }
         for s in library.graph.statement_uses.neighbours(d.id) {
-            edges.push(format!("statement {} {}", d.name, library.declaration(s).name));
+            edges.push(format!(
+                "statement {} {}",
+                d.name,
+                library.declaration(s).name
+            ));
         }
     }
     edges.sort();

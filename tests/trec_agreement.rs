@@ -49,7 +49,14 @@ fn metrics_agree_with_trec_eval_on_the_coq_standard_library() {
     let o = Command::new(env!("CARGO_BIN_EXE_quarry"))
         .arg("eval")
         .arg(&theories)
-        .args(["--coq-prefix", &prefix, "--split", "random", "--signals", "lexical"])
+        .args([
+            "--coq-prefix",
+            &prefix,
+            "--split",
+            "random",
+            "--signals",
+            "lexical",
+        ])
         .arg("--trec")
         .arg(&trec)
         .arg("--out")
@@ -91,11 +98,23 @@ fn metrics_agree_with_trec_eval_on_the_coq_standard_library() {
     for s in report["systems"].as_array().unwrap() {
         let name = s["system"].as_str().unwrap();
         let t = &theirs[name];
-        assert_eq!(t["queries"].as_u64().unwrap(), s["queries"].as_u64().unwrap());
+        assert_eq!(
+            t["queries"].as_u64().unwrap(),
+            s["queries"].as_u64().unwrap()
+        );
         for (ours, reference) in [
-            (s["recall"]["10"].as_f64().unwrap(), t["recall_10"].as_f64().unwrap()),
-            (s["mrr"].as_f64().unwrap(), t["recip_rank"].as_f64().unwrap()),
-            (s["ndcg_10"].as_f64().unwrap(), t["ndcg_cut_10"].as_f64().unwrap()),
+            (
+                s["recall"]["10"].as_f64().unwrap(),
+                t["recall_10"].as_f64().unwrap(),
+            ),
+            (
+                s["mrr"].as_f64().unwrap(),
+                t["recip_rank"].as_f64().unwrap(),
+            ),
+            (
+                s["ndcg_10"].as_f64().unwrap(),
+                t["ndcg_cut_10"].as_f64().unwrap(),
+            ),
         ] {
             assert!(
                 (ours - reference).abs() < 1e-6,

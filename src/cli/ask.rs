@@ -297,7 +297,11 @@ fn print_remote_table(
     let empty = Vec::new();
     let premises = answer["premises"].as_array().unwrap_or(&empty);
     if premises.is_empty() {
-        return writeln!(out, "no premise matched (searched {} declarations)", answer["candidates"]);
+        return writeln!(
+            out,
+            "no premise matched (searched {} declarations)",
+            answer["candidates"]
+        );
     }
     let text = |v: &serde_json::Value| v.as_str().unwrap_or("").to_string();
     let name_width = premises
@@ -447,7 +451,11 @@ fn clip(text: &str, width: usize) -> String {
 fn print_tokens(out: &mut impl Write, ranking: &PremiseRanking, all: bool) -> std::io::Result<()> {
     let g = &ranking.goal;
     writeln!(out, "goal read as {}:", g.format.as_str())?;
-    let shown = if all { g.goals.len() } else { g.goals.len().min(1) };
+    let shown = if all {
+        g.goals.len()
+    } else {
+        g.goals.len().min(1)
+    };
     for goal in g.goals.iter().take(shown) {
         for h in &goal.hypotheses {
             writeln!(out, "  hypothesis {} : {}", h.names.join(" "), h.ty)?;
@@ -538,7 +546,11 @@ fn print_table(
                     .take(5)
                     .map(|v| index.library.declaration(*v).name.as_str())
                     .collect();
-                writeln!(out, "     {}", style.paint("2", &format!("voted for by: {}", voters.join(", "))))?;
+                writeln!(
+                    out,
+                    "     {}",
+                    style.paint("2", &format!("voted for by: {}", voters.join(", ")))
+                )?;
             }
         }
     }

@@ -48,7 +48,7 @@ pub struct BuildArgs {
     seed: u64,
 }
 
-fn parse_dense(s: &str) -> Result<DenseMode, String> {
+pub(super) fn parse_dense(s: &str) -> Result<DenseMode, String> {
     match s {
         "learned" => Ok(DenseMode::Learned),
         "off" => Ok(DenseMode::Off),

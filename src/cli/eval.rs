@@ -12,6 +12,7 @@ use quarry::eval::report::{compare, Report, SplitCounts, SystemReport};
 use quarry::eval::split::{eligible_theorems, split, SplitConfig, SplitKind};
 use quarry::eval::{run_system, summarise, trec, System};
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::index::dense::DenseMode;
 use quarry::index::lexical::FieldBoosts;
 use quarry::index::{build_index_with, BuildConfig, FusionChoice, OpenIndex};
 use quarry::retrieve::Signal;
@@ -41,6 +42,10 @@ pub struct EvalArgs {
     /// Signals to measure (comma separated; default all). Baselines always run.
     #[arg(long, value_delimiter = ',', value_parser = parse_signal)]
     signals: Option<Vec<Signal>>,
+    /// The dense signal of the evaluated index: `learned` (trained on the training part)
+    /// or `off` (no dense signal; faster, for checks that need only the lexical path).
+    #[arg(long, default_value = "learned", value_parser = super::build::parse_dense)]
+    dense: DenseMode,
     /// Folder for report.json, report.md and recall_at_k.svg.
     #[arg(long, value_name = "REPORT_DIR")]
     out: Option<PathBuf>,
@@ -120,7 +125,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         validation: Some(&split.validation),
         fusion: FusionChoice::Tuned(&tuner),
         seed: args.seed,
-        ..BuildConfig::default()
+        dense: args.dense,
     };
     build_index_with(scratch.path(), &library, settings, &config)
         .context("cannot build the index")?;
@@ -150,6 +155,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         .clone()
         .unwrap_or(Signal::ALL.to_vec())
         .into_iter()
+        .filter(|s| args.dense == DenseMode::Learned || *s != Signal::Dense)
         .map(System::Signal)
         .collect();
     if args.signals.is_none() {

@@ -61,7 +61,7 @@ fn file_path(library: &Library, d: &Declaration) -> String {
     }
 }
 
-fn names<'a>(library: &'a Library, ids: impl Iterator<Item = DeclId>) -> Vec<&'a str> {
+fn names(library: &Library, ids: impl Iterator<Item = DeclId>) -> Vec<&str> {
     ids.map(|id| library.declaration(id).name.as_str())
         .collect()
 }

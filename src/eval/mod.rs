@@ -188,7 +188,12 @@ pub fn run_system(
 }
 
 /// The metrics of `runs` against the queries' answers, at the cut-offs `ks`.
-pub fn summarise(name: &str, queries: &[EvalQuery], runs: &[QueryRun], ks: &[usize]) -> SystemMetrics {
+pub fn summarise(
+    name: &str,
+    queries: &[EvalQuery],
+    runs: &[QueryRun],
+    ks: &[usize],
+) -> SystemMetrics {
     let n = queries.len().max(1) as f64;
     let mut m = SystemMetrics {
         system: name.to_string(),

@@ -15,6 +15,10 @@ use serde::{Deserialize, Serialize};
 
 use super::SystemMetrics;
 
+/// One column of the Markdown table: its title, how to read it from a system, and whether
+/// higher is better.
+type Column = (String, Box<dyn Fn(&SystemReport) -> f64>, bool);
+
 /// Everything one evaluation measured.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct Report {
@@ -65,7 +69,11 @@ impl From<&SystemMetrics> for SystemReport {
             system: m.system.clone(),
             queries: m.queries,
             recall: m.recall.iter().map(|(k, v)| (k.to_string(), *v)).collect(),
-            full_recall: m.full_recall.iter().map(|(k, v)| (k.to_string(), *v)).collect(),
+            full_recall: m
+                .full_recall
+                .iter()
+                .map(|(k, v)| (k.to_string(), *v))
+                .collect(),
             mrr: m.mrr,
             ndcg_10: m.ndcg_10,
             latency_median_ms: m.latency_median_ms,
@@ -135,7 +143,7 @@ impl Report {
              Seed {}, holdout {}, index build `{}`.\n",
             c.eligible, c.test, c.queries, c.excluded, c.validation, c.train, self.seed, self.holdout, self.build_id
         );
-        let mut columns: Vec<(String, Box<dyn Fn(&SystemReport) -> f64>, bool)> = Vec::new();
+        let mut columns: Vec<Column> = Vec::new();
         for k in &self.ks {
             let key = k.to_string();
             columns.push((
@@ -153,13 +161,21 @@ impl Report {
             ));
         }
         columns.push(("MRR".into(), Box::new(|s: &SystemReport| s.mrr), true));
-        columns.push(("nDCG@10".into(), Box::new(|s: &SystemReport| s.ndcg_10), true));
+        columns.push((
+            "nDCG@10".into(),
+            Box::new(|s: &SystemReport| s.ndcg_10),
+            true,
+        ));
         columns.push((
             "median ms".into(),
             Box::new(|s: &SystemReport| s.latency_median_ms),
             false,
         ));
-        columns.push(("p99 ms".into(), Box::new(|s: &SystemReport| s.latency_p99_ms), false));
+        columns.push((
+            "p99 ms".into(),
+            Box::new(|s: &SystemReport| s.latency_p99_ms),
+            false,
+        ));
         let _ = write!(out, "| system |");
         for (name, _, _) in &columns {
             let _ = write!(out, " {name} |");
@@ -172,7 +188,7 @@ impl Report {
         let best: Vec<f64> = columns
             .iter()
             .map(|(_, f, higher)| {
-                let vals = self.systems.iter().map(|s| f(s));
+                let vals = self.systems.iter().map(f);
                 if *higher {
                     vals.fold(f64::NEG_INFINITY, f64::max)
                 } else {
@@ -242,15 +258,26 @@ impl Report {
             let points: Vec<(f64, f64)> = self
                 .ks
                 .iter()
-                .map(|k| (*k as f64, s.recall.get(&k.to_string()).copied().unwrap_or(0.0)))
+                .map(|k| {
+                    (
+                        *k as f64,
+                        s.recall.get(&k.to_string()).copied().unwrap_or(0.0),
+                    )
+                })
                 .collect();
             chart
                 .draw_series(LineSeries::new(points.clone(), colour.stroke_width(2)))
                 .map_err(|e| err(e.to_string()))?
                 .label(s.system.clone())
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2))
+                });
             chart
-                .draw_series(points.into_iter().map(|p| Circle::new(p, 3, colour.filled())))
+                .draw_series(
+                    points
+                        .into_iter()
+                        .map(|p| Circle::new(p, 3, colour.filled())),
+                )
                 .map_err(|e| err(e.to_string()))?;
         }
         chart
@@ -275,7 +302,10 @@ pub fn compare(a: &Report, b: &Report) -> String {
         a.split, a.counts.queries, a.build_id, b.split, b.counts.queries, b.build_id
     );
     if a.split != b.split || a.seed != b.seed || a.queries_from != b.queries_from {
-        let _ = writeln!(out, "note: the reports differ in split, seed or queries; figures are not paired");
+        let _ = writeln!(
+            out,
+            "note: the reports differ in split, seed or queries; figures are not paired"
+        );
     }
     for sb in &b.systems {
         let Some(sa) = a.systems.iter().find(|s| s.system == sb.system) else {

@@ -97,7 +97,9 @@ pub enum SplitError {
     Holdout(f64),
     #[error("validation fraction {0} is not between 0 and 1 (exclusive)")]
     Validation(f64),
-    #[error("the library has no theorem whose proof uses a premise of the library: nothing to evaluate")]
+    #[error(
+        "the library has no theorem whose proof uses a premise of the library: nothing to evaluate"
+    )]
     NothingEligible,
 }
 

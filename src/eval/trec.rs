@@ -53,7 +53,10 @@ impl TrecIds {
 
     /// The id of `decl`.
     pub fn of(&self, decl: DeclId) -> &str {
-        self.ids.get(decl.0 as usize).map(String::as_str).unwrap_or("")
+        self.ids
+            .get(decl.0 as usize)
+            .map(String::as_str)
+            .unwrap_or("")
     }
 }
 
@@ -85,13 +88,7 @@ pub fn run_file(library: &Library, runs: &[QueryRun], tag: &str) -> String {
                 s = previous - 1e-6 * previous.abs().max(1.0);
             }
             previous = s;
-            let _ = writeln!(
-                out,
-                "{qid} Q0 {} {} {:.9} {tag}",
-                ids.of(*doc),
-                i + 1,
-                s
-            );
+            let _ = writeln!(out, "{qid} Q0 {} {} {:.9} {tag}", ids.of(*doc), i + 1, s);
         }
     }
     out

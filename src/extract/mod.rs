@@ -18,8 +18,7 @@ pub mod walk;
 pub use walk::{build_library, BuildOptions, CoqPrefix, LibraryRoot};
 
 use crate::library::{
-    DeclKind, Diagnostic, Hypothesis, Language, NotationInfo, ProofEnding, Span,
-    Visibility,
+    DeclKind, Diagnostic, Hypothesis, Language, NotationInfo, ProofEnding, Span, Visibility,
 };
 
 /// A name written in a statement or proof, before resolution.
@@ -154,4 +153,3 @@ pub fn extract_text(language: Language, module: &str, text: &str) -> FileExtract
         Language::Coq => coq::extract(module, text),
     }
 }
-

@@ -132,7 +132,11 @@ impl<'a> ResolveEnv<'a> {
     /// Visible declarations whose fully qualified name is `full`, for a reference at byte `at`.
     pub fn exact(&self, full: &str, at: u32) -> Vec<u32> {
         match self.table.exact.get(full) {
-            Some(ids) => ids.iter().copied().filter(|&i| self.can_see(i, at)).collect(),
+            Some(ids) => ids
+                .iter()
+                .copied()
+                .filter(|&i| self.can_see(i, at))
+                .collect(),
             None => Vec::new(),
         }
     }
@@ -432,7 +436,11 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
                     let written = n.unfolds_to_written.as_ref()?;
                     let r = RawReference {
                         name: written.clone(),
-                        offset: d.statement_span.end.byte.max(d.statement_span.start.byte + 1),
+                        offset: d
+                            .statement_span
+                            .end
+                            .byte
+                            .max(d.statement_span.start.byte + 1),
                     };
                     match resolve_one(language, &r, scope, &env) {
                         Resolution::Resolved(t) => Some(table.names[t as usize].clone()),

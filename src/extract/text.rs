@@ -78,10 +78,31 @@ mod tests {
     fn positions_count_lines_and_chars() {
         let text = "ab\n≤c\n\nd";
         let idx = LineIndex::new(text);
-        assert_eq!(idx.position(0), Position { line: 1, column: 1, byte: 0 });
-        assert_eq!(idx.position(3), Position { line: 2, column: 1, byte: 3 });
+        assert_eq!(
+            idx.position(0),
+            Position {
+                line: 1,
+                column: 1,
+                byte: 0
+            }
+        );
+        assert_eq!(
+            idx.position(3),
+            Position {
+                line: 2,
+                column: 1,
+                byte: 3
+            }
+        );
         // `c` follows the three-byte `≤`: column 2, byte 6.
-        assert_eq!(idx.position(6), Position { line: 2, column: 2, byte: 6 });
+        assert_eq!(
+            idx.position(6),
+            Position {
+                line: 2,
+                column: 2,
+                byte: 6
+            }
+        );
         assert_eq!(idx.position(9).line, 4);
         // inside `≤` moves back to its first byte
         assert_eq!(idx.position(4).byte, 3);

@@ -43,9 +43,11 @@ impl CoqPrefix {
             .split_once('=')
             .ok_or_else(|| format!("`{text}` is not of the form Name=DIR"))?;
         let valid = !logical.is_empty()
-            && logical
-                .split('.')
-                .all(|p| !p.is_empty() && p.chars().all(|c| c.is_alphanumeric() || c == '_' || c == '\''));
+            && logical.split('.').all(|p| {
+                !p.is_empty()
+                    && p.chars()
+                        .all(|c| c.is_alphanumeric() || c == '_' || c == '\'')
+            });
         if !valid && !logical.is_empty() {
             return Err(format!("`{logical}` in `{text}` is not a Coq logical name"));
         }
@@ -78,7 +80,7 @@ pub enum WalkError {
     #[error("no `.lean` or `.v` source files under {0}")]
     NoSources(String),
     #[error("none of the {0} source files could be read (see the diagnostics)")]
-    NothingReadable(usize, Library),
+    NothingReadable(usize, Box<Library>),
     #[error("could not start {0} worker threads: {1}")]
     Threads(usize, String),
     #[error("reading `_CoqProject` in `{0}`: {1}")]
@@ -268,11 +270,13 @@ pub fn read_source(bytes: &[u8]) -> Result<&str, Diagnostic> {
         let line = bytes[..at].iter().filter(|&&b| b == b'\n').count() as u32 + 1;
         skip(
             line,
-            format!("not UTF-8: invalid byte 0x{:02x} at byte offset {at}", bytes[at]),
+            format!(
+                "not UTF-8: invalid byte 0x{:02x} at byte offset {at}",
+                bytes[at]
+            ),
         )
     })?;
-    let mut line_no = 1u32;
-    for line in text.split('\n') {
+    for (line_no, line) in (1u32..).zip(text.split('\n')) {
         if line.len() > MAX_LINE_BYTES {
             return Err(skip(
                 line_no,
@@ -284,7 +288,6 @@ pub fn read_source(bytes: &[u8]) -> Result<&str, Diagnostic> {
                 ),
             ));
         }
-        line_no += 1;
     }
     Ok(text)
 }
@@ -413,7 +416,7 @@ pub fn build_library(opts: &BuildOptions) -> Result<Library, WalkError> {
         .filter(|f| f.diagnostics.iter().any(|d| d.severity == Severity::Error))
         .count();
     if unreadable == library.files.len() {
-        return Err(WalkError::NothingReadable(unreadable, library));
+        return Err(WalkError::NothingReadable(unreadable, Box::new(library)));
     }
     Ok(library)
 }

@@ -18,8 +18,7 @@ use std::sync::Arc;
 use tantivy::collector::{FilterCollector, TopDocs};
 use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
 use tantivy::schema::{
-    Field, IndexRecordOption, Schema, TextFieldIndexing, TextOptions, Value, FAST, STORED,
-    STRING,
+    Field, IndexRecordOption, Schema, TextFieldIndexing, TextOptions, Value, FAST, STORED, STRING,
 };
 use tantivy::tokenizer::{Token, TokenStream, Tokenizer};
 use tantivy::{doc, Index, IndexReader, ReloadPolicy, TantivyDocument, Term};
@@ -173,7 +172,7 @@ fn schema() -> (Schema, LexicalFields) {
 }
 
 /// The name of a declaration without its module prefix (Coq names carry it; Lean's do not).
-pub fn local_name<'a>(library: &'a Library, id: DeclId) -> &'a str {
+pub fn local_name(library: &Library, id: DeclId) -> &str {
     let d = library.declaration(id);
     let module = &library.module(d.module).name;
     d.name
@@ -250,7 +249,11 @@ pub struct LexicalIndex {
 
 impl LexicalIndex {
     /// Opens the lexical index in `dir`, registering `tokenize` as its tokenizer.
-    pub fn open(dir: &Path, tokenize: TokenizeFn, declarations: usize) -> Result<Self, LexicalError> {
+    pub fn open(
+        dir: &Path,
+        tokenize: TokenizeFn,
+        declarations: usize,
+    ) -> Result<Self, LexicalError> {
         let index = Index::open_in_dir(dir).map_err(tantivy_err(dir))?;
         index
             .tokenizers()
@@ -335,7 +338,10 @@ impl LexicalIndex {
                     Term::from_field_text(f, &t.text),
                     IndexRecordOption::WithFreqs,
                 );
-                clauses.push((Occur::Should, Box::new(BoostQuery::new(Box::new(q), boost * t.weight))));
+                clauses.push((
+                    Occur::Should,
+                    Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
+                ));
             }
         }
         if clauses.is_empty() || limit == 0 {
@@ -383,12 +389,13 @@ impl LexicalIndex {
         if self.document_count() == 0 {
             return Ok(());
         }
-        let doc: TantivyDocument = searcher
-            .doc(tantivy::DocAddress::new(0, 0))
-            .map_err(|source| LexicalError::Tantivy {
-                path: self.path.clone(),
-                source,
-            })?;
+        let doc: TantivyDocument =
+            searcher
+                .doc(tantivy::DocAddress::new(0, 0))
+                .map_err(|source| LexicalError::Tantivy {
+                    path: self.path.clone(),
+                    source,
+                })?;
         match doc.get_first(self.fields.id).and_then(|v| v.as_u64()) {
             Some(_) => Ok(()),
             None => Err(LexicalError::Invalid {
@@ -497,12 +504,17 @@ mod tests {
         let idx = LexicalIndex::open(&path, whitespace(), 3).unwrap();
         let boosts = FieldBoosts::text_only();
 
-        let hits = idx.search(&[term("push"), term("slot")], &boosts, None, 10).unwrap();
+        let hits = idx
+            .search(&[term("push"), term("slot")], &boosts, None, 10)
+            .unwrap();
         let expected = [(0u32, 0.906294f32), (1, 0.630140), (2, 0.507767)];
         assert_eq!(hits.len(), 3);
         for ((id, score), (eid, escore)) in hits.iter().zip(expected) {
             assert_eq!(id.0, eid);
-            assert!((score - escore).abs() < 1e-4, "doc {eid}: {score} vs {escore}");
+            assert!(
+                (score - escore).abs() < 1e-4,
+                "doc {eid}: {score} vs {escore}"
+            );
         }
         // A shorter document wins at equal term frequency (length normalisation).
         let slot = idx.search(&[term("slot")], &boosts, None, 10).unwrap();
@@ -521,10 +533,21 @@ mod tests {
         let mut only_d2 = PremiseFilter::none(3);
         only_d2.insert(DeclId(1));
         let hits = idx
-            .search(&[term("push")], &FieldBoosts::default(), Some(Arc::new(only_d2)), 10)
+            .search(
+                &[term("push")],
+                &FieldBoosts::default(),
+                Some(Arc::new(only_d2)),
+                10,
+            )
             .unwrap();
-        assert_eq!(hits.iter().map(|h| h.0).collect::<Vec<_>>(), vec![DeclId(1)]);
-        assert!(idx.search(&[], &FieldBoosts::default(), None, 10).unwrap().is_empty());
+        assert_eq!(
+            hits.iter().map(|h| h.0).collect::<Vec<_>>(),
+            vec![DeclId(1)]
+        );
+        assert!(idx
+            .search(&[], &FieldBoosts::default(), None, 10)
+            .unwrap()
+            .is_empty());
         assert!(idx
             .search(&[term("absent")], &FieldBoosts::default(), None, 10)
             .unwrap()

@@ -153,7 +153,11 @@ pub fn library_tokenizer(library: &Library) -> Tokenizer {
     use crate::tokens::TokenKind;
     let standard = Tokenizer::standard();
     let mut targets: BTreeMap<&str, BTreeMap<&str, usize>> = BTreeMap::new();
-    for n in library.declarations.iter().filter_map(|d| d.notation.as_ref()) {
+    for n in library
+        .declarations
+        .iter()
+        .filter_map(|d| d.notation.as_ref())
+    {
         let Some(target) = n.unfolds_to.as_deref().or(n.unfolds_to_written.as_deref()) else {
             continue;
         };
@@ -224,7 +228,11 @@ pub fn build_index_with(
     mut settings: BTreeMap<String, serde_json::Value>,
     config: &BuildConfig<'_>,
 ) -> Result<(PathBuf, BuildTimings), IndexError> {
-    let inputs: String = library.files.iter().map(|f| f.content_hash.as_str()).collect();
+    let inputs: String = library
+        .files
+        .iter()
+        .map(|f| f.content_hash.as_str())
+        .collect();
     let mut writer = GenerationWriter::create(index_dir, &inputs)?;
     let mut timings = BuildTimings::default();
     let started = Instant::now();
@@ -256,13 +264,22 @@ pub fn build_index_with(
             None
         }
         DenseMode::Learned => {
-            let (part, summary) =
-                dense::build_dense(library, &tokenizer, &lexical, &training, &validation, config.seed)?;
+            let (part, summary) = dense::build_dense(
+                library,
+                &tokenizer,
+                &lexical,
+                &training,
+                &validation,
+                config.seed,
+            )?;
             part.save(&mut writer)?;
             let mut value = serde_json::to_value(&summary).unwrap_or_default();
             if let Some(map) = value.as_object_mut() {
                 map.insert("mode".into(), serde_json::json!("learned"));
-                map.insert("encoder".into(), serde_json::json!("hashed features, InfoNCE"));
+                map.insert(
+                    "encoder".into(),
+                    serde_json::json!("hashed features, InfoNCE"),
+                );
             }
             settings.insert("dense".to_string(), value);
             Some(part)
@@ -278,7 +295,9 @@ pub fn build_index_with(
 
     let started = Instant::now();
     let fusion = match config.fusion {
-        FusionChoice::Equal => serde_json::json!({ "weights": FusionWeights::default(), "chosen": "equal" }),
+        FusionChoice::Equal => {
+            serde_json::json!({ "weights": FusionWeights::default(), "chosen": "equal" })
+        }
         FusionChoice::Fixed(w) => serde_json::json!({ "weights": w, "chosen": "given" }),
         FusionChoice::Tuned(tuner) => {
             let provisional = Generation {
@@ -363,7 +382,10 @@ impl OpenIndex {
                 part: VOTABLE_PART,
                 message: format!("not a list of declaration ids: {e}"),
             })?;
-            if let Some(bad) = ids.iter().find(|&&i| i as usize >= library.declarations.len()) {
+            if let Some(bad) = ids
+                .iter()
+                .find(|&&i| i as usize >= library.declarations.len())
+            {
                 return Err(IndexError::Part {
                     part: VOTABLE_PART,
                     message: format!(

@@ -69,7 +69,9 @@ impl Csr {
 
     /// The neighbours of `node` (empty for an id outside the graph).
     pub fn neighbours(&self, node: DeclId) -> impl Iterator<Item = DeclId> + '_ {
-        self.neighbours_raw(node.0 as usize).iter().map(|&t| DeclId(t))
+        self.neighbours_raw(node.0 as usize)
+            .iter()
+            .map(|&t| DeclId(t))
     }
 
     /// How many neighbours `node` has.
@@ -170,11 +172,17 @@ mod tests {
     #[test]
     fn csr_dedups_sorts_and_transposes() {
         let g = Csr::from_edges(4, &[(2, 1), (0, 3), (0, 1), (0, 3), (3, 9)]);
-        assert_eq!(g.neighbours(DeclId(0)).collect::<Vec<_>>(), vec![DeclId(1), DeclId(3)]);
+        assert_eq!(
+            g.neighbours(DeclId(0)).collect::<Vec<_>>(),
+            vec![DeclId(1), DeclId(3)]
+        );
         assert_eq!(g.neighbours(DeclId(1)).count(), 0);
         assert_eq!(g.edge_count(), 3);
         let t = g.transposed();
-        assert_eq!(t.neighbours(DeclId(1)).collect::<Vec<_>>(), vec![DeclId(0), DeclId(2)]);
+        assert_eq!(
+            t.neighbours(DeclId(1)).collect::<Vec<_>>(),
+            vec![DeclId(0), DeclId(2)]
+        );
         assert_eq!(t.neighbours(DeclId(3)).collect::<Vec<_>>(), vec![DeclId(0)]);
         assert!(g.validate().is_ok());
         assert_eq!(g.neighbours(DeclId(99)).count(), 0);
@@ -182,9 +190,15 @@ mod tests {
 
     #[test]
     fn validate_catches_bad_arrays() {
-        let bad = Csr { offsets: vec![0, 2, 1], targets: vec![0] };
+        let bad = Csr {
+            offsets: vec![0, 2, 1],
+            targets: vec![0],
+        };
         assert!(bad.validate().is_err());
-        let out = Csr { offsets: vec![0, 1], targets: vec![5] };
+        let out = Csr {
+            offsets: vec![0, 1],
+            targets: vec![5],
+        };
         assert!(out.validate().is_err());
     }
 }

@@ -42,7 +42,9 @@ const GRAPH_PART: &str = "graph.bin";
 /// What went wrong reading or writing an index, with the file concerned.
 #[derive(Debug, thiserror::Error)]
 pub enum StoreError {
-    #[error("`{0}` is not a quarry index folder (no `CURRENT` file); build one with `quarry build`")]
+    #[error(
+        "`{0}` is not a quarry index folder (no `CURRENT` file); build one with `quarry build`"
+    )]
     NotAnIndex(PathBuf),
     #[error("`{0}` exists and is not a quarry index folder: refusing to write into it")]
     WouldOverwrite(PathBuf),
@@ -368,14 +370,15 @@ fn read_current(index_dir: &Path) -> Result<String, StoreError> {
         Err(e) => return Err(io_err(&path)(e)),
     };
     let name = text.trim();
-    let valid = name.starts_with("gen-")
-        && !name.contains(['/', '\\'])
-        && name != "."
-        && name != "..";
+    let valid =
+        name.starts_with("gen-") && !name.contains(['/', '\\']) && name != "." && name != "..";
     if !valid {
         return Err(StoreError::Corrupt {
             path,
-            message: format!("does not name a generation folder: `{}`", name.escape_debug()),
+            message: format!(
+                "does not name a generation folder: `{}`",
+                name.escape_debug()
+            ),
         });
     }
     Ok(name.to_string())
@@ -465,11 +468,10 @@ pub fn open_generation(index_dir: &Path) -> Result<Generation, StoreError> {
             expected: FORMAT_VERSION,
         });
     }
-    let manifest: Manifest =
-        serde_json::from_value(value).map_err(|e| StoreError::Corrupt {
-            path: manifest_path,
-            message: format!("unexpected manifest contents: {e}"),
-        })?;
+    let manifest: Manifest = serde_json::from_value(value).map_err(|e| StoreError::Corrupt {
+        path: manifest_path,
+        message: format!("unexpected manifest contents: {e}"),
+    })?;
     Ok(Generation { dir, manifest })
 }
 
@@ -477,10 +479,14 @@ impl Generation {
     /// Reads one file part and checks it against the manifest's size and checksum.
     pub fn read_part(&self, name: &str) -> Result<Vec<u8>, StoreError> {
         let path = self.dir.join(name);
-        let record = self.manifest.parts.get(name).ok_or_else(|| StoreError::Corrupt {
-            path: self.dir.join(MANIFEST),
-            message: format!("lists no part `{name}`"),
-        })?;
+        let record = self
+            .manifest
+            .parts
+            .get(name)
+            .ok_or_else(|| StoreError::Corrupt {
+                path: self.dir.join(MANIFEST),
+                message: format!("lists no part `{name}`"),
+            })?;
         let bytes = fs::read(&path).map_err(io_err(&path))?;
         if bytes.len() as u64 != record.bytes {
             return Err(StoreError::Corrupt {
@@ -505,10 +511,14 @@ impl Generation {
     /// Checks a folder part against the manifest.
     pub fn verify_folder(&self, name: &str) -> Result<(), StoreError> {
         let path = self.dir.join(name);
-        let record = self.manifest.parts.get(name).ok_or_else(|| StoreError::Corrupt {
-            path: self.dir.join(MANIFEST),
-            message: format!("lists no part `{name}`"),
-        })?;
+        let record = self
+            .manifest
+            .parts
+            .get(name)
+            .ok_or_else(|| StoreError::Corrupt {
+                path: self.dir.join(MANIFEST),
+                message: format!("lists no part `{name}`"),
+            })?;
         let actual = folder_checksum(&path, false)?;
         if &actual != record {
             return Err(StoreError::Corrupt {
@@ -593,7 +603,11 @@ pub fn save_library(
     library: &Library,
     settings: BTreeMap<String, serde_json::Value>,
 ) -> Result<PathBuf, StoreError> {
-    let inputs: String = library.files.iter().map(|f| f.content_hash.as_str()).collect();
+    let inputs: String = library
+        .files
+        .iter()
+        .map(|f| f.content_hash.as_str())
+        .collect();
     let mut writer = GenerationWriter::create(index_dir, &inputs)?;
     writer.write_library(library)?;
     writer.commit(library, settings)

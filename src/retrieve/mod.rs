@@ -260,7 +260,12 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     let order: Vec<(DeclId, f32)> = if fused {
         let ids: Vec<(Vec<DeclId>, f32)> = lists
             .iter()
-            .map(|(s, l)| (l.iter().map(|x| x.0).collect(), index.fusion.weight(s.as_str())))
+            .map(|(s, l)| {
+                (
+                    l.iter().map(|x| x.0).collect(),
+                    index.fusion.weight(s.as_str()),
+                )
+            })
             .collect();
         let borrowed: Vec<(&[DeclId], f32)> = ids.iter().map(|(l, w)| (l.as_slice(), *w)).collect();
         reciprocal_rank_fusion(&borrowed, index.fusion.k)
@@ -353,7 +358,13 @@ pub fn matched_terms(index: &OpenIndex, id: DeclId, terms: &[QueryTerm]) -> Vec<
         .texts()
         .map(str::to_string)
         .collect();
-    tokens.extend(index.tokenizer.tokenize(&d.statement).texts().map(str::to_string));
+    tokens.extend(
+        index
+            .tokenizer
+            .tokenize(&d.statement)
+            .texts()
+            .map(str::to_string),
+    );
     terms
         .iter()
         .filter(|t| tokens.contains(&t.text))

@@ -35,11 +35,17 @@ fn run(cmd: &mut Command) -> Result<(), String> {
 }
 
 fn apt_install(packages: &[&str]) -> Result<(), String> {
-    if run(Command::new("apt-get").args(["install", "-y", "-q"]).args(packages)).is_ok() {
+    if run(Command::new("apt-get")
+        .args(["install", "-y", "-q"])
+        .args(packages))
+    .is_ok()
+    {
         return Ok(());
     }
     run(Command::new("apt-get").args(["update", "-q"]))?;
-    run(Command::new("apt-get").args(["install", "-y", "-q"]).args(packages))
+    run(Command::new("apt-get")
+        .args(["install", "-y", "-q"])
+        .args(packages))
 }
 
 fn theories_in(root: &Path) -> Option<PathBuf> {
@@ -61,7 +67,9 @@ fn find_stdlib() -> Result<PathBuf, String> {
         return if system.join("Init/Prelude.v").is_file() {
             Ok(system)
         } else {
-            Err(format!("installed libcoq-stdlib but `{SYSTEM_THEORIES}` has no Init/Prelude.v"))
+            Err(format!(
+                "installed libcoq-stdlib but `{SYSTEM_THEORIES}` has no Init/Prelude.v"
+            ))
         };
     }
     let dl = target_dir().join("debian/downloads");

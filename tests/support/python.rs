@@ -7,7 +7,9 @@ use std::process::Command;
 
 /// Whether the tests run in CI, where every reference check must run.
 pub fn in_ci() -> bool {
-    std::env::var("CI").map(|v| v == "true" || v == "1").unwrap_or(false)
+    std::env::var("CI")
+        .map(|v| v == "true" || v == "1")
+        .unwrap_or(false)
 }
 
 /// Skips (returns `None`, printing why) outside CI, panics in CI.
@@ -48,7 +50,13 @@ pub fn venv_with(packages: &[&str]) -> Option<PathBuf> {
     ));
     if !marker.exists() {
         let out = Command::new(&python)
-            .args(["-m", "pip", "install", "--quiet", "--disable-pip-version-check"])
+            .args([
+                "-m",
+                "pip",
+                "install",
+                "--quiet",
+                "--disable-pip-version-check",
+            ])
             .args(packages)
             .output();
         match out {

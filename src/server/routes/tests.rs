@@ -222,8 +222,14 @@ async fn request_fields_are_checked_against_the_library() {
             r#"{"goal": "length q", "file": "theories/Queue.v", "line": 0}"#,
             "invalid_field",
         ),
-        (r#"{"goal": "length q", "module": "Sched.Nowhere"}"#, "unknown_module"),
-        (r#"{"goal": "length q", "module": "Sched.Queue", "file": "Queue.v"}"#, "invalid_field"),
+        (
+            r#"{"goal": "length q", "module": "Sched.Nowhere"}"#,
+            "unknown_module",
+        ),
+        (
+            r#"{"goal": "length q", "module": "Sched.Queue", "file": "Queue.v"}"#,
+            "invalid_field",
+        ),
         (r#"{"goal": "length q", "signals": []}"#, "invalid_field"),
         (r#"{"goal": "length q", "limitt": 5}"#, "unknown_field"),
         (r#"{"limit": 5}"#, "missing_field"),
