@@ -246,7 +246,7 @@ impl GenerationWriter {
     /// Records a folder part that a later stage wrote under the staging folder itself.
     pub fn record_folder(&mut self, name: &str) -> Result<(), StoreError> {
         let path = self.staging.join(name);
-        let record = folder_checksum(&path, true)?;
+        let record = folder_checksum(&path)?;
         self.parts.insert(name.to_string(), record);
         Ok(())
     }
@@ -385,7 +385,7 @@ fn read_current(index_dir: &Path) -> Result<String, StoreError> {
 }
 
 /// BLAKE3 over a folder's files: relative path and bytes of each, in sorted order.
-fn folder_checksum(dir: &Path, _writing: bool) -> Result<PartRecord, StoreError> {
+fn folder_checksum(dir: &Path) -> Result<PartRecord, StoreError> {
     let mut files = Vec::new();
     collect_files(dir, dir, &mut files)?;
     files.sort();
@@ -519,7 +519,7 @@ impl Generation {
                 path: self.dir.join(MANIFEST),
                 message: format!("lists no part `{name}`"),
             })?;
-        let actual = folder_checksum(&path, false)?;
+        let actual = folder_checksum(&path)?;
         if &actual != record {
             return Err(StoreError::Corrupt {
                 path,
