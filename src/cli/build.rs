@@ -7,9 +7,10 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
+use quarry::dense::transformer::DEFAULT_BATCH_SIZE;
 use quarry::eval::tune_fusion;
 use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
-use quarry::index::dense::DenseMode;
+use quarry::index::dense::{DenseMode, TransformerChoice};
 use quarry::index::{build_index_with, BuildConfig, FusionChoice};
 use quarry::library::{store, Library, Severity};
 use quarry::retrieve::fusion::FusionWeights;
@@ -35,9 +36,13 @@ pub struct BuildArgs {
     #[arg(long, short)]
     quiet: bool,
     /// The dense signal: `learned` (train the hashed-feature encoder on the library's own
-    /// proofs) or `off`.
+    /// proofs), `transformer:MODEL_DIR` (embed with a BERT sentence-embedding model saved
+    /// in MODEL_DIR; the index keeps its own copy) or `off`.
     #[arg(long, default_value = "learned", value_parser = parse_dense)]
     dense: DenseMode,
+    /// Texts per forward pass of the transformer encoder.
+    #[arg(long, default_value_t = DEFAULT_BATCH_SIZE, value_name = "N")]
+    dense_batch_size: usize,
     /// Fusion weights, `signal=weight` comma separated (e.g. `lexical=1,neighbours=2`);
     /// signals not named weigh 1. Default: tuned on a held-out tenth of the library's
     /// proofs.
@@ -48,11 +53,21 @@ pub struct BuildArgs {
     seed: u64,
 }
 
+/// Reads `--dense`: `learned`, `off`, or `transformer:MODEL_DIR` (batch size the default).
 pub(super) fn parse_dense(s: &str) -> Result<DenseMode, String> {
     match s {
         "learned" => Ok(DenseMode::Learned),
         "off" => Ok(DenseMode::Off),
-        _ => Err(format!("unknown dense mode `{s}`: learned or off")),
+        _ => match s.strip_prefix("transformer:") {
+            Some("") => Err("`transformer:` needs a model folder: transformer:MODEL_DIR".into()),
+            Some(dir) => Ok(DenseMode::Transformer(TransformerChoice {
+                model_dir: PathBuf::from(dir),
+                batch_size: DEFAULT_BATCH_SIZE,
+            })),
+            None => Err(format!(
+                "unknown dense mode `{s}`: learned, transformer:MODEL_DIR or off"
+            )),
+        },
     }
 }
 
@@ -108,10 +123,46 @@ fn report_diagnostics(library: &Library) {
     }
 }
 
+/// Prints how many transformer embeddings were re-used and computed (nothing for the other
+/// dense modes), from the manifest just written.
+fn report_embeddings(gen: &std::path::Path) {
+    let Some(dir) = gen.parent() else { return };
+    let Ok(generation) = store::open_generation(dir) else {
+        return;
+    };
+    let Some(d) = generation.manifest.settings.get("dense") else {
+        return;
+    };
+    if d["mode"] == "transformer" {
+        println!(
+            "transformer embeddings of {} declarations: {} texts re-used, {} computed              (cache: {}); model `{}`, {} dimensions, {} pooling{}",
+            d["statements"],
+            d["reused"],
+            d["computed"],
+            d["cache"].as_str().unwrap_or("?"),
+            d["model"]["name"].as_str().unwrap_or("?"),
+            d["dim"],
+            d["model"]["pooling"].as_str().unwrap_or("?"),
+            if d["model"]["normalize"] == true {
+                ", normalised"
+            } else {
+                ""
+            }
+        );
+    }
+}
+
 /// Runs `quarry build`.
 pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
     if args.threads == Some(0) {
         anyhow::bail!("--threads must be at least 1");
+    }
+    if args.dense_batch_size == 0 {
+        anyhow::bail!("--dense-batch-size must be at least 1");
+    }
+    let mut dense = args.dense.clone();
+    if let DenseMode::Transformer(choice) = &mut dense {
+        choice.batch_size = args.dense_batch_size;
     }
     let started = Instant::now();
     let opts = BuildOptions {
@@ -153,7 +204,7 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
         tune_fusion(index, validation).map_err(|e| e.to_string())
     };
     let config = BuildConfig {
-        dense: args.dense,
+        dense,
         fusion: match &fixed {
             Some(w) => FusionChoice::Fixed(w),
             None => FusionChoice::Tuned(&tuner),
@@ -188,6 +239,7 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
             timings.write_seconds,
             super::display_path(&gen)
         );
+        report_embeddings(&gen);
     }
     Ok(ExitCode::SUCCESS)
 }

@@ -42,7 +42,8 @@ pub struct EvalArgs {
     /// Signals to measure (comma separated; default all). Baselines always run.
     #[arg(long, value_delimiter = ',', value_parser = parse_signal)]
     signals: Option<Vec<Signal>>,
-    /// The dense signal of the evaluated index: `learned` (trained on the training part)
+    /// The dense signal of the evaluated index: `learned` (trained on the training part),
+    /// `transformer:MODEL_DIR` (a pretrained sentence-embedding model, learning nothing)
     /// or `off` (no dense signal; faster, for checks that need only the lexical path).
     #[arg(long, default_value = "learned", value_parser = super::build::parse_dense)]
     dense: DenseMode,
@@ -125,7 +126,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         validation: Some(&split.validation),
         fusion: FusionChoice::Tuned(&tuner),
         seed: args.seed,
-        dense: args.dense,
+        dense: args.dense.clone(),
     };
     build_index_with(scratch.path(), &library, settings, &config)
         .context("cannot build the index")?;
@@ -155,7 +156,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         .clone()
         .unwrap_or(Signal::ALL.to_vec())
         .into_iter()
-        .filter(|s| args.dense == DenseMode::Learned || *s != Signal::Dense)
+        .filter(|s| args.dense != DenseMode::Off || *s != Signal::Dense)
         .map(System::Signal)
         .collect();
     if args.signals.is_none() {

@@ -301,6 +301,55 @@ fn print_summary(
     Ok(())
 }
 
+/// The transformer encoder of the index: the model's identity and the embedding figures.
+fn print_transformer(out: &mut impl Write, d: &serde_json::Value) -> anyhow::Result<()> {
+    let m = &d["model"];
+    writeln!(
+        out,
+        "  dense signal: transformer encoder `{}` ({}, {} layers), {} dimensions, {} pooling{}, \
+         max {} tokens, {} vector index",
+        m["name"].as_str().unwrap_or("?"),
+        m["architecture"].as_str().unwrap_or("?"),
+        m["layers"],
+        m["dim"],
+        m["pooling"].as_str().unwrap_or("?"),
+        if m["normalize"] == true {
+            ", normalised"
+        } else {
+            ""
+        },
+        m["max_seq_length"],
+        d["vector_index"].as_str().unwrap_or("?")
+    )?;
+    writeln!(
+        out,
+        "    model fingerprint {}",
+        m["fingerprint"].as_str().unwrap_or("?")
+    )?;
+    if let Some(files) = m["files"].as_object() {
+        for (name, f) in files {
+            writeln!(
+                out,
+                "    {name}: {} bytes, blake3 {}",
+                f["bytes"],
+                f["blake3"].as_str().unwrap_or("?")
+            )?;
+        }
+    }
+    writeln!(
+        out,
+        "    embedded {} declarations in batches of {}: {} texts re-used, {} computed in {:.2} s \
+         (cache: {})",
+        d["statements"],
+        d["batch_size"],
+        d["reused"],
+        d["computed"],
+        d["encode_seconds"].as_f64().unwrap_or(0.0),
+        d["cache"].as_str().unwrap_or("?")
+    )?;
+    Ok(())
+}
+
 /// The learned parts of the index: what was learned from, the encoder and its training
 /// figures, and the fusion weights with how they were chosen.
 fn print_learning(
@@ -326,6 +375,8 @@ fn print_learning(
     if let Some(d) = settings.get("dense") {
         if d["mode"] == "off" {
             writeln!(out, "  dense signal: off")?;
+        } else if d["mode"] == "transformer" {
+            print_transformer(out, d)?;
         } else {
             writeln!(
                 out,

@@ -19,7 +19,7 @@ use super::exact::ExactIndex;
 use super::hnsw::{HnswIndex, HnswParams};
 use super::learned::LearnedEncoder;
 use super::vectors::VectorSet;
-use super::{DenseError, Encoder};
+use super::DenseError;
 
 /// The encoder's part in a generation.
 pub const ENCODER_PART: &str = "dense/encoder.bin";

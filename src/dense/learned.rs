@@ -219,8 +219,8 @@ impl LearnedEncoder {
             .collect()
     }
 
-    /// Reads an encoder written by [`Encoder::to_bytes`]; any damage or inconsistency is a
-    /// [`DenseError::Decode`].
+    /// Reads an encoder written by [`LearnedEncoder::to_bytes`]; any damage or
+    /// inconsistency is a [`DenseError::Decode`].
     pub fn from_bytes(bytes: &[u8]) -> Result<LearnedEncoder, DenseError> {
         let mut r = PartReader::open(WHAT, MAGIC, bytes)?;
         let settings = EncoderSettings {
@@ -285,11 +285,15 @@ impl Encoder for LearnedEncoder {
     fn encode_premise(&self, tokens: &[&str]) -> Vec<f32> {
         self.encode_premise_tokens(tokens)
     }
+}
 
+impl LearnedEncoder {
+    /// The encoder as bytes, read back by [`LearnedEncoder::from_bytes`].
+    ///
     /// Layout (little-endian): magic `QRYENC\0\x01`; buckets u32, dim u32, seed u64; idf,
     /// buckets × f32; per side (goal, then premise) a count u32 and that many rows, each
     /// its index u32 and dim × f32; BLAKE3 of all that.
-    fn to_bytes(&self) -> Vec<u8> {
+    pub fn to_bytes(&self) -> Vec<u8> {
         let goal_rows = self.changed_rows(&self.goal_table);
         let premise_rows = self.changed_rows(&self.premise_table);
         let dim = self.settings.dim as usize;

@@ -3,8 +3,10 @@
 //! Takes already-tokenized statements (`&[&str]` token lists: tokenization belongs to
 //! another stage) and, for training, the library's own proofs as (goal, premise used)
 //! pairs; gives
-//! - an [`Encoder`] that maps a goal or a premise to an L2-normalised vector, trained on
-//!   the CPU ([`train::train`]) and saved as bytes ([`LearnedEncoder::to_bytes`]);
+//! - an [`Encoder`] that maps a goal or a premise to an L2-normalised vector: either
+//!   [`LearnedEncoder`], trained on the CPU ([`train::train`]) and saved as bytes
+//!   ([`LearnedEncoder::to_bytes`]), or [`transformer::TransformerEncoder`], a pretrained
+//!   BERT sentence-embedding model read from a folder and run with candle;
 //! - a [`VectorIndex`] over premise vectors: an exact cosine scan for small libraries, an
 //!   HNSW graph (built with `hnsw_rs`) for large ones, saved into and loaded from an index
 //!   generation ([`VectorIndex::save`], [`VectorIndex::load`]).
@@ -46,6 +48,7 @@ pub mod recall;
 pub mod seeded;
 pub mod synthetic;
 pub mod train;
+pub mod transformer;
 pub mod vectors;
 
 pub use exact::ExactIndex;
@@ -74,8 +77,6 @@ pub trait Encoder: Send + Sync {
     fn encode_goal(&self, tokens: &[&str]) -> Vec<f32>;
     /// The vector of a premise's statement tokens, as [`Encoder::encode_goal`] for premises.
     fn encode_premise(&self, tokens: &[&str]) -> Vec<f32>;
-    /// The encoder as bytes, to be read back by the implementation's own `from_bytes`.
-    fn to_bytes(&self) -> Vec<u8>;
 }
 
 /// Borrows a list of owned tokens as the `&[&str]` the [`Encoder`] methods take.
@@ -104,4 +105,7 @@ pub enum DenseError {
     /// Reading or writing the index folder failed.
     #[error(transparent)]
     Store(#[from] StoreError),
+    /// The transformer model could not be read or run.
+    #[error(transparent)]
+    Transformer(#[from] transformer::TransformerError),
 }

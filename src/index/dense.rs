@@ -1,21 +1,27 @@
-//! The dense part of an index: the learned encoder trained on the library's own proofs,
-//! and every declaration's vector in a [`VectorIndex`].
+//! The dense part of an index: an encoder — the learned one trained on the library's own
+//! proofs, or a pretrained transformer ([`transformer`]) — and every declaration's vector in
+//! a [`VectorIndex`].
 //!
 //! Takes the library, the shared tokenizer, the lexical index (for hard negatives: BM25's
 //! near misses for a theorem's statement that its proof does not use), and the theorems
 //! whose proofs may be learned from; gives a [`DensePart`] (row `i` of the vectors is
-//! declaration `i`) with its training figures, and saves and loads it through a generation.
-//! It never looks at a proof outside the training set and does not rank anything.
+//! declaration `i`) with its figures for the manifest, and saves and loads it through a
+//! generation. It never looks at a proof outside the training set and does not rank
+//! anything.
+
+pub mod transformer;
 
 use std::collections::HashSet;
+use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::Instant;
 
 use serde::Serialize;
 
+use crate::dense::transformer::TransformerEncoder;
 use crate::dense::{
-    load_encoder, save_encoder, train, DenseError, EncoderSettings, IndexParams, LearnedEncoder,
-    TrainConfig, TrainingData, TrainingPair, Validation, VectorIndex, VectorSet,
+    load_encoder, save_encoder, train, DenseError, Encoder, EncoderSettings, IndexParams,
+    LearnedEncoder, TrainConfig, TrainingData, TrainingPair, Validation, VectorIndex, VectorSet,
 };
 use crate::library::store::{Generation, GenerationWriter};
 use crate::library::{DeclId, Library};
@@ -25,14 +31,55 @@ use crate::tokens::Tokenizer;
 
 use super::lexical::{local_name, LexicalError, LexicalIndex};
 
-/// Whether an index gets the dense signal.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, serde::Deserialize)]
+/// Whether an index gets the dense signal, and from which encoder.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum DenseMode {
     /// Train the learned hashed-feature encoder on the library's proofs.
     Learned,
+    /// Embed every declaration with a pretrained sentence-embedding model.
+    Transformer(TransformerChoice),
     /// No dense signal (and neighbours found by the lexical signal only).
     Off,
+}
+
+/// The transformer model a build embeds with.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, serde::Deserialize)]
+pub struct TransformerChoice {
+    /// The model folder (`config.json`, `model.safetensors`, `tokenizer.json`, pooling).
+    pub model_dir: PathBuf,
+    /// Texts per forward pass.
+    pub batch_size: usize,
+}
+
+/// The encoder of a dense part.
+#[derive(Debug)]
+pub enum DenseEncoder {
+    Learned(LearnedEncoder),
+    Transformer(Box<TransformerEncoder>),
+}
+
+impl Encoder for DenseEncoder {
+    fn dim(&self) -> usize {
+        match self {
+            DenseEncoder::Learned(e) => e.dim(),
+            DenseEncoder::Transformer(e) => e.dim(),
+        }
+    }
+
+    fn encode_goal(&self, tokens: &[&str]) -> Vec<f32> {
+        match self {
+            DenseEncoder::Learned(e) => e.encode_goal(tokens),
+            DenseEncoder::Transformer(e) => e.encode_goal(tokens),
+        }
+    }
+
+    fn encode_premise(&self, tokens: &[&str]) -> Vec<f32> {
+        match self {
+            DenseEncoder::Learned(e) => e.encode_premise(tokens),
+            DenseEncoder::Transformer(e) => e.encode_premise(tokens),
+        }
+    }
 }
 
 /// BM25 hits looked at per training theorem when choosing hard negatives.
@@ -55,7 +102,7 @@ pub fn build_encoder_settings(seed: u64) -> EncoderSettings {
 
 /// The encoder and the declarations' vectors.
 pub struct DensePart {
-    pub encoder: LearnedEncoder,
+    pub encoder: DenseEncoder,
     /// Row `i` is declaration `i`'s premise-side vector.
     pub vectors: VectorIndex,
     /// The theorems whose proofs the encoder was trained on (sorted), kept so a check can
@@ -92,6 +139,51 @@ pub enum DenseBuildError {
     Dense(#[from] DenseError),
     #[error("dense part, choosing hard negatives: {0}")]
     Lexical(#[from] LexicalError),
+}
+
+/// Builds the dense part `mode` asks for, saves it into `writer`, and gives it with the
+/// figures the manifest records under `dense` (`None` and `{"mode": "off"}` when off).
+/// `index_dir` is the folder being rebuilt: a transformer build re-uses the embeddings of
+/// its live generation.
+#[allow(clippy::too_many_arguments)]
+pub fn build_dense_part(
+    mode: &DenseMode,
+    library: &Library,
+    tokenizer: &Arc<Tokenizer>,
+    lexical: &LexicalIndex,
+    training: &[DeclId],
+    validation: &[DeclId],
+    seed: u64,
+    index_dir: &Path,
+    writer: &mut GenerationWriter,
+) -> Result<(Option<DensePart>, serde_json::Value), DenseBuildError> {
+    match mode {
+        DenseMode::Off => Ok((None, serde_json::json!({ "mode": "off" }))),
+        DenseMode::Learned => {
+            let (part, summary) =
+                build_dense(library, tokenizer, lexical, training, validation, seed)?;
+            part.save(writer)?;
+            let mut value = serde_json::to_value(&summary).unwrap_or_default();
+            if let Some(map) = value.as_object_mut() {
+                map.insert("mode".into(), serde_json::json!("learned"));
+                map.insert(
+                    "encoder".into(),
+                    serde_json::json!("hashed features, InfoNCE"),
+                );
+            }
+            Ok((Some(part), value))
+        }
+        DenseMode::Transformer(choice) => {
+            let (part, summary) = transformer::build_transformer_dense(
+                library, tokenizer, choice, index_dir, writer,
+            )?;
+            let mut value = serde_json::to_value(&summary).unwrap_or_default();
+            if let Some(map) = value.as_object_mut() {
+                map.insert("mode".into(), serde_json::json!("transformer"));
+            }
+            Ok((Some(part), value))
+        }
+    }
 }
 
 /// The query terms of a theorem's statement read as a goal, as a pasted goal is read
@@ -245,7 +337,7 @@ pub fn build_dense(
     training_goals.sort();
     Ok((
         DensePart {
-            encoder,
+            encoder: DenseEncoder::Learned(encoder),
             vectors,
             training_goals,
         },
@@ -254,9 +346,12 @@ pub fn build_dense(
 }
 
 impl DensePart {
-    /// Writes the encoder and the vectors into the generation being built.
+    /// Writes the encoder and the vectors into the generation being built (a transformer's
+    /// model files and cache keys are written by its build, which has them).
     pub fn save(&self, writer: &mut GenerationWriter) -> Result<(), DenseError> {
-        save_encoder(writer, &self.encoder)?;
+        if let DenseEncoder::Learned(encoder) = &self.encoder {
+            save_encoder(writer, encoder)?;
+        }
         let goals: Vec<u32> = self.training_goals.iter().map(|d| d.0).collect();
         let bytes = postcard::to_stdvec(&goals).map_err(|e| DenseError::Decode {
             what: "training goals",
@@ -272,14 +367,14 @@ impl DensePart {
         generation: &Generation,
         declarations: usize,
     ) -> Result<Option<DensePart>, DenseError> {
-        if !generation
-            .manifest
-            .parts
-            .contains_key(crate::dense::index::ENCODER_PART)
-        {
+        let parts = &generation.manifest.parts;
+        let encoder = if parts.contains_key(crate::dense::index::ENCODER_PART) {
+            DenseEncoder::Learned(load_encoder(generation)?)
+        } else if parts.contains_key(transformer::MODEL_PART) {
+            DenseEncoder::Transformer(Box::new(transformer::load_transformer(generation)?))
+        } else {
             return Ok(None);
-        }
-        let encoder = load_encoder(generation)?;
+        };
         let vectors = VectorIndex::load(generation)?;
         if vectors.vectors().len() != declarations {
             return Err(DenseError::BadVector {
@@ -355,15 +450,17 @@ mod tests {
             .map(|a| unit(&[a.to_radians().cos(), a.to_radians().sin()]))
             .collect();
         let part = DensePart {
-            encoder: LearnedEncoder::initial(
-                EncoderSettings {
-                    buckets: 8,
-                    dim: 2,
-                    seed: 1,
-                },
-                &[vec!["ledger".to_string()]],
-            )
-            .expect("tiny encoder"),
+            encoder: DenseEncoder::Learned(
+                LearnedEncoder::initial(
+                    EncoderSettings {
+                        buckets: 8,
+                        dim: 2,
+                        seed: 1,
+                    },
+                    &[vec!["ledger".to_string()]],
+                )
+                .expect("tiny encoder"),
+            ),
             vectors: VectorIndex::Exact(ExactIndex::new(
                 VectorSet::from_rows(2, &rows).expect("rows"),
             )),

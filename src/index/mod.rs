@@ -65,7 +65,7 @@ pub enum FusionChoice<'a> {
 }
 
 /// What a build learns from and how.
-#[derive(Clone, Copy)]
+#[derive(Clone)]
 pub struct BuildConfig<'a> {
     pub dense: DenseMode,
     /// The theorems whose proofs may be learned from (dense training, neighbour votes,
@@ -258,33 +258,18 @@ pub fn build_index_with(
         }),
     );
     let started = Instant::now();
-    let dense = match config.dense {
-        DenseMode::Off => {
-            settings.insert("dense".to_string(), serde_json::json!({ "mode": "off" }));
-            None
-        }
-        DenseMode::Learned => {
-            let (part, summary) = dense::build_dense(
-                library,
-                &tokenizer,
-                &lexical,
-                &training,
-                &validation,
-                config.seed,
-            )?;
-            part.save(&mut writer)?;
-            let mut value = serde_json::to_value(&summary).unwrap_or_default();
-            if let Some(map) = value.as_object_mut() {
-                map.insert("mode".into(), serde_json::json!("learned"));
-                map.insert(
-                    "encoder".into(),
-                    serde_json::json!("hashed features, InfoNCE"),
-                );
-            }
-            settings.insert("dense".to_string(), value);
-            Some(part)
-        }
-    };
+    let (dense, dense_summary) = dense::build_dense_part(
+        &config.dense,
+        library,
+        &tokenizer,
+        &lexical,
+        &training,
+        &validation,
+        config.seed,
+        index_dir,
+        &mut writer,
+    )?;
+    settings.insert("dense".to_string(), dense_summary);
     timings.dense_seconds = started.elapsed().as_secs_f64();
     let votable: Vec<u32> = training.iter().map(|d| d.0).collect();
     let votable_bytes = postcard::to_stdvec(&votable).map_err(|e| IndexError::Part {
