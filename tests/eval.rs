@@ -2,13 +2,18 @@
 //! never have learned from their proofs. The checker [`leaks`] looks for every way a
 //! held-out proof could reach the index (votable theorems, the encoder's training goals,
 //! rankings that contain the query's own theorem or a declaration after it in its file),
-//! and a deliberately leaky build (every theorem learned from) proves it can fail.
+//! and a deliberately leaky build (every theorem learned from) proves it can fail. The same
+//! checks run on goal states harvested from the ring buffer's proofs by a real coqc (Debian's
+//! `coq` 8.16; under `CI=true` it must be present, see `support::debian::coqc`).
+
+mod support;
 
 use std::collections::BTreeMap;
 use std::path::Path;
 
-use quarry::eval::queries::statement_queries;
+use quarry::eval::queries::{statement_queries, EvalQuery};
 use quarry::eval::split::{split, Split, SplitConfig, SplitKind};
+use quarry::eval::states::state_queries;
 use quarry::eval::{run_system, System};
 use quarry::extract::{build_library, BuildOptions};
 use quarry::index::dense::DenseMode;
@@ -61,6 +66,12 @@ fn index_of(
 
 /// Every way a held-out proof reaches `index`, described; empty when none does.
 fn leaks(index: &OpenIndex, split: &Split) -> Vec<String> {
+    let queries = statement_queries(&index.library, &split.test);
+    leaks_for(index, split, &queries)
+}
+
+/// [`leaks`], the rankings checked on `queries` (statements or goal states).
+fn leaks_for(index: &OpenIndex, split: &Split, queries: &[EvalQuery]) -> Vec<String> {
     let library = &index.library;
     let name = |d: DeclId| library.declaration(d).name.clone();
     let mut found = Vec::new();
@@ -74,7 +85,6 @@ fn leaks(index: &OpenIndex, split: &Split) -> Vec<String> {
             }
         }
     }
-    let queries = statement_queries(library, &split.test);
     let systems = [
         System::Signal(Signal::Lexical),
         System::Signal(Signal::Dense),
@@ -82,7 +92,7 @@ fn leaks(index: &OpenIndex, split: &Split) -> Vec<String> {
         System::Fusion,
     ];
     for system in systems {
-        let runs = run_system(index, &queries, system, split, 50, 1).expect("queries run");
+        let runs = run_system(index, queries, system, split, 50, 1).expect("queries run");
         for run in runs {
             let q = library.declaration(run.theorem);
             for (d, _) in &run.ranked {
@@ -182,5 +192,192 @@ fn the_leak_checker_catches_a_ranking_that_contains_the_query_itself() {
     assert!(
         caught,
         "no query found itself with the place removed: the rule could not fail"
+    );
+}
+
+/// Goal states of the ring buffer's proofs, replayed by coqc (`None`: no coqc outside CI).
+/// The harvest compiles against the library's `.vo` files, so a copy of the fixture is
+/// compiled first, in its `_CoqProject` order (Core, Lemmas, Queue), as a user would.
+fn ring_buffer_states(dir: &Path) -> Option<Vec<quarry::harvest::GoalRecord>> {
+    let coqc = support::debian::coqc()?;
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures/coq");
+    let root = dir.join("ring-buffer");
+    std::fs::create_dir_all(&root).unwrap();
+    for file in ["_CoqProject", "Core.v", "Lemmas.v", "Queue.v"] {
+        std::fs::copy(fixture.join(file), root.join(file)).unwrap();
+    }
+    for file in ["Core.v", "Lemmas.v", "Queue.v"] {
+        let out = std::process::Command::new(&coqc)
+            .current_dir(&root)
+            .args(["-R", ".", "RingBuffer", file])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "coqc {file}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    let outcome = quarry::harvest::harvest(&quarry::harvest::HarvestOptions {
+        roots: vec![root],
+        coq_prefixes: Vec::new(),
+        coqc,
+        timeout_per_file: std::time::Duration::from_secs(120),
+        threads: Some(1),
+        progress: false,
+    })
+    .expect("the ring buffer replays");
+    assert!(
+        outcome.failed.is_empty(),
+        "the ring buffer compiles: {:?}",
+        outcome.failed
+    );
+    Some(outcome.records)
+}
+
+/// Held out by theorem: every goal state of a held-out theorem is a query, none of another,
+/// and no ranking of a goal state reaches a held-out proof, the theorem itself or what
+/// follows it; the leaky build is caught on goal states too.
+#[test]
+fn no_held_out_proof_reaches_the_index_answering_goal_states() {
+    let tmp = tempfile::tempdir().unwrap();
+    let Some(records) = ring_buffer_states(tmp.path()) else {
+        return;
+    };
+    let library = demo_library();
+    let split = demo_split(&library);
+    let mut test = split.test.clone();
+    test.sort_unstable();
+    let (queries, counts) = state_queries(&library, &records, &test);
+    assert!(!queries.is_empty(), "held-out theorems have goal states");
+    let held_out: std::collections::HashSet<&str> = test
+        .iter()
+        .map(|&t| library.declaration(t).name.as_str())
+        .collect();
+    // coqc's records, counted apart from state_queries: those of held-out theorems.
+    let of_test = records
+        .iter()
+        .filter(|r| held_out.contains(r.theorem.as_str()))
+        .count();
+    assert_eq!(counts.selected, of_test, "{counts:?}");
+    assert_eq!(counts.queries + counts.no_answer, of_test, "{counts:?}");
+    for q in &queries {
+        assert!(test.binary_search(&q.theorem).is_ok());
+        // Each answer is a declaration the record's tactic named (coqc's `.glob`).
+        let record_premises: Vec<&str> = records
+            .iter()
+            .filter(|r| r.goal == q.goal && library.declaration(q.theorem).name == r.theorem)
+            .flat_map(|r| r.premises.iter().map(String::as_str))
+            .collect();
+        for p in &q.relevant {
+            assert!(
+                record_premises.contains(&library.declaration(*p).name.as_str()),
+                "{} answers {} but no record names it",
+                library.declaration(*p).name,
+                q.qid
+            );
+        }
+    }
+    let honest = index_of(
+        &library,
+        &split,
+        Some(&split.train),
+        &tmp.path().join("honest"),
+    );
+    let found = leaks_for(&honest, &split, &queries);
+    assert!(found.is_empty(), "held-out proofs leak: {found:#?}");
+    let leaky = index_of(&library, &split, None, &tmp.path().join("leaky"));
+    let found = leaks_for(&leaky, &split, &queries);
+    assert!(
+        found.iter().any(|f| f.contains("votes")),
+        "a build learning from test proofs was not caught on goal states: {found:#?}"
+    );
+}
+
+/// `quarry eval --states` end to end: the report says it measured goal states, its query
+/// count is what `state_queries` gives for the same split, the TREC query ids name held-out
+/// theorems, and a file with a broken line is refused with its line named.
+#[test]
+fn quarry_eval_measures_goal_states_and_refuses_a_broken_file() {
+    let tmp = tempfile::tempdir().unwrap();
+    let Some(records) = ring_buffer_states(tmp.path()) else {
+        return;
+    };
+    let states = tmp.path().join("states.jsonl");
+    let lines: Vec<String> = records
+        .iter()
+        .map(|r| serde_json::to_string(r).unwrap())
+        .collect();
+    std::fs::write(&states, lines.join("\n") + "\n").unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures/coq");
+    let out = tmp.path().join("report");
+    let run = std::process::Command::new(env!("CARGO_BIN_EXE_quarry"))
+        .arg("eval")
+        .arg(&root)
+        .arg("--states")
+        .arg(&states)
+        .args(["--holdout", "0.3", "--seed", "7", "--dense", "off"])
+        .arg("--out")
+        .arg(&out)
+        .arg("--trec")
+        .arg(out.join("trec"))
+        .output()
+        .unwrap();
+    let stdout = String::from_utf8_lossy(&run.stdout);
+    assert!(
+        run.status.success(),
+        "{stdout}{}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
+    assert_eq!(report["queries_from"], "goal_states");
+    // The same split computed here, through the library, gives the same queries.
+    let library = build_library(&BuildOptions {
+        roots: vec![root],
+        coq_prefixes: Vec::new(),
+        threads: Some(1),
+        progress: false,
+    })
+    .unwrap();
+    let split = split(
+        &library,
+        &SplitConfig {
+            kind: SplitKind::Random,
+            holdout: 0.3,
+            validation: 0.1,
+            seed: 7,
+        },
+    )
+    .unwrap();
+    let mut test = split.test.clone();
+    test.sort_unstable();
+    let (queries, _) = state_queries(&library, &records, &test);
+    assert!(!queries.is_empty());
+    assert_eq!(report["counts"]["queries"], queries.len());
+    let qrels = std::fs::read_to_string(out.join("trec/qrels.txt")).unwrap();
+    for line in qrels.lines() {
+        let qid = line.split(' ').next().unwrap_or("");
+        let theorem = qid.split('@').next().unwrap_or("");
+        assert!(
+            test.iter().any(|&t| library.declaration(t).name == theorem),
+            "qrels query {qid} is not a held-out theorem's"
+        );
+    }
+    // A broken line: refused, naming the file and the line.
+    std::fs::write(&states, format!("{}\n{{\"goal\": 3}}\n", lines[0])).unwrap();
+    let run = std::process::Command::new(env!("CARGO_BIN_EXE_quarry"))
+        .arg("eval")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures/coq"))
+        .arg("--states")
+        .arg(&states)
+        .args(["--dense", "off"])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert!(!run.status.success());
+    assert!(
+        stderr.contains("states.jsonl") && stderr.contains("line 2"),
+        "{stderr}"
     );
 }

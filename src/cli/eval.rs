@@ -7,14 +7,17 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
-use quarry::eval::queries::statement_queries;
+use quarry::eval::queries::{statement_queries, EvalQuery};
 use quarry::eval::report::{compare, Report, SplitCounts, SystemReport};
 use quarry::eval::split::{eligible_theorems, split, SplitConfig, SplitKind};
+use quarry::eval::states::{read_states, state_queries, StateCounts};
 use quarry::eval::{run_system, summarise, trec, System};
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::harvest::GoalRecord;
 use quarry::index::dense::DenseMode;
 use quarry::index::lexical::FieldBoosts;
 use quarry::index::{build_index_with, BuildConfig, FusionChoice, OpenIndex};
+use quarry::library::{DeclId, Library};
 use quarry::retrieve::Signal;
 
 /// Arguments of `quarry eval`.
@@ -57,6 +60,11 @@ pub struct EvalArgs {
     /// print the grid.
     #[arg(long)]
     tune_boosts: bool,
+    /// Evaluate on harvested goal states (`quarry harvest --out STATES.jsonl`) instead of
+    /// theorem statements: the records of held-out theorems are the queries, and the fusion
+    /// is tuned on the records of validation theorems.
+    #[arg(long, value_name = "STATES.jsonl")]
+    states: Option<PathBuf>,
     /// Print the differences between two report.json files and exit.
     #[arg(long, num_args = 2, value_names = ["A.json", "B.json"])]
     compare: Option<Vec<PathBuf>>,
@@ -112,14 +120,20 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         ..SplitConfig::default()
     };
     let split = split(&library, &config)?;
+    let records = match &args.states {
+        Some(path) => Some(read_states(path)?),
+        None => None,
+    };
+    let records = records.as_deref();
     let t = Instant::now();
     let scratch = tempfile::tempdir().context("cannot make a temporary folder for the index")?;
     let mut settings = BTreeMap::new();
     settings.insert("evaluation".to_string(), serde_json::json!(true));
     // Only the training part is learned from, and the fusion is tuned on the validation
     // part: no test proof may reach the index that answers it.
-    let tuner = |index: &OpenIndex, validation: &[quarry::library::DeclId]| {
-        quarry::eval::tune_fusion(index, validation).map_err(|e| e.to_string())
+    let tuner = |index: &OpenIndex, validation: &[DeclId]| {
+        let (queries, _) = queries_of(records, &index.library, validation);
+        quarry::eval::tune_fusion_on(index, &queries).map_err(|e| e.to_string())
     };
     let config = BuildConfig {
         training: Some(&split.train),
@@ -136,7 +150,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
 
     if args.tune_boosts {
         let t = Instant::now();
-        let validation = statement_queries(&index.library, &split.validation);
+        let (validation, _) = queries_of(records, &index.library, &split.validation);
         let best = tune_boosts(&mut index, &validation, &split, depth, args.seed)?;
         println!(
             "chosen on {} validation queries: name {}, conclusion {}, hypotheses {}, text {}\n",
@@ -150,7 +164,29 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         seconds.insert("tune_boosts".to_string(), t.elapsed().as_secs_f64());
     }
 
-    let queries = statement_queries(&index.library, &split.test);
+    let (queries, state_counts) = queries_of(records, &index.library, &split.test);
+    if let Some(path) = &args.states {
+        println!(
+            "goal states `{}`: {} records, {} of held-out theorems, {} queries ({} of an \
+             unknown theorem, {} of an unknown file, {} with no premise that can answer; {} \
+             named declarations dropped)\n",
+            path.display(),
+            state_counts.records,
+            state_counts.selected,
+            state_counts.queries,
+            state_counts.unknown_theorem,
+            state_counts.unknown_file,
+            state_counts.no_answer,
+            state_counts.dropped_premises
+        );
+        if queries.is_empty() {
+            anyhow::bail!(
+                "no goal state of `{}` belongs to a held-out theorem of this library: were \
+                 they harvested from the same roots and prefixes?",
+                path.display()
+            );
+        }
+    }
     let mut systems: Vec<System> = args
         .signals
         .clone()
@@ -179,13 +215,23 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
             report_settings.insert(key.to_string(), v.clone());
         }
     }
+    if let Some(path) = &args.states {
+        report_settings.insert(
+            "goal_states".to_string(),
+            serde_json::json!({"file": path.display().to_string(), "counts": state_counts}),
+        );
+    }
     report_settings.insert(
         "lexical_boosts".to_string(),
         serde_json::to_value(index.lexical_boosts)?,
     );
     let report = Report {
         quarry_version: env!("CARGO_PKG_VERSION").to_string(),
-        queries_from: "statements".into(),
+        queries_from: if args.states.is_some() {
+            "goal_states".into()
+        } else {
+            "statements".into()
+        },
         split: args.split.as_str().into(),
         holdout: args.holdout,
         seed: args.seed,
@@ -226,10 +272,27 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
     Ok(ExitCode::SUCCESS)
 }
 
+/// The queries of a side of the split: its theorems' statements or, with goal-state
+/// records, the goal states harvested from their proofs.
+fn queries_of(
+    records: Option<&[GoalRecord]>,
+    library: &Library,
+    theorems: &[DeclId],
+) -> (Vec<EvalQuery>, StateCounts) {
+    match records {
+        Some(records) => {
+            let mut sorted = theorems.to_vec();
+            sorted.sort_unstable();
+            state_queries(library, records, &sorted)
+        }
+        None => (statement_queries(library, theorems), StateCounts::default()),
+    }
+}
+
 /// Grid search of the lexical field boosts by recall@10 on the validation queries.
 fn tune_boosts(
     index: &mut OpenIndex,
-    validation: &[quarry::eval::queries::EvalQuery],
+    validation: &[EvalQuery],
     split: &quarry::eval::split::Split,
     depth: usize,
     seed: u64,

@@ -10,6 +10,7 @@ pub mod metrics;
 pub mod queries;
 pub mod report;
 pub mod split;
+pub mod states;
 pub mod trec;
 
 use std::collections::BTreeMap;
@@ -54,6 +55,8 @@ impl System {
 /// One query's ranked list.
 #[derive(Clone, Debug, PartialEq)]
 pub struct QueryRun {
+    /// The query's TREC id ([`EvalQuery::qid`]).
+    pub qid: String,
     pub theorem: DeclId,
     /// Best first, with the system's scores.
     pub ranked: Vec<(DeclId, f32)>,
@@ -179,6 +182,7 @@ pub fn run_system(
             }
         };
         runs.push(QueryRun {
+            qid: q.qid.clone(),
             theorem: q.theorem,
             ranked,
             latency_ms: started.elapsed().as_secs_f64() * 1e3,
@@ -218,28 +222,36 @@ pub fn summarise(
 }
 
 /// The most validation queries the fusion is tuned on (an even spread of the validation
-/// theorems when there are more).
+/// queries when there are more).
 pub const TUNING_QUERIES: usize = 1_000;
 
 /// Chooses the fusion weights of `index` on the theorems `validation` (never test
-/// theorems): each signal ranks every query [`FUSION_DEPTH`](crate::retrieve::FUSION_DEPTH)
-/// deep through [`rank`], and [`grid_search`](crate::retrieve::fusion::grid_search) picks
-/// the weights by recall@10. Signals the index lacks (dense, built with `--dense off`) are
-/// left out.
+/// theorems), their statements as goals: see [`tune_fusion_on`].
 pub fn tune_fusion(
     index: &OpenIndex,
     validation: &[DeclId],
 ) -> Result<crate::retrieve::fusion::FusionTuning, EvalError> {
+    let queries = queries::statement_queries(&index.library, validation);
+    tune_fusion_on(index, &queries)
+}
+
+/// Chooses the fusion weights of `index` on validation `queries` (never test queries; an
+/// even spread of [`TUNING_QUERIES`] when there are more): each signal ranks every query
+/// [`FUSION_DEPTH`](crate::retrieve::FUSION_DEPTH) deep through [`rank`], and
+/// [`grid_search`](crate::retrieve::fusion::grid_search) picks the weights by recall@10.
+/// Signals the index lacks (dense, built with `--dense off`) are left out.
+pub fn tune_fusion_on(
+    index: &OpenIndex,
+    queries: &[EvalQuery],
+) -> Result<crate::retrieve::fusion::FusionTuning, EvalError> {
     use crate::retrieve::fusion::{grid_search, TuningQuery};
-    let step = validation.len().div_ceil(TUNING_QUERIES).max(1);
-    let chosen: Vec<DeclId> = validation.iter().copied().step_by(step).collect();
-    let queries = queries::statement_queries(&index.library, &chosen);
+    let step = queries.len().div_ceil(TUNING_QUERIES).max(1);
     let signals: Vec<Signal> = Signal::ALL
         .into_iter()
         .filter(|s| *s != Signal::Dense || index.dense.is_some())
         .collect();
-    let mut tuning = Vec::with_capacity(queries.len());
-    for q in &queries {
+    let mut tuning = Vec::with_capacity(queries.len() / step + 1);
+    for q in queries.iter().step_by(step) {
         let mut lists = Vec::with_capacity(signals.len());
         for &signal in &signals {
             let request = RankRequest {

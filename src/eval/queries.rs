@@ -12,10 +12,15 @@ use crate::library::{BinderStyle, DeclId, Library};
 use crate::retrieve::accessible::QueryPlace;
 use crate::retrieve::DEFAULT_KINDS;
 
+use super::trec::TrecIds;
+
 /// One query of an evaluation.
 #[derive(Clone, Debug, PartialEq)]
 pub struct EvalQuery {
-    /// The held-out theorem (TREC query id: its fully qualified name).
+    /// The query's TREC id: the held-out theorem's [`TrecIds`] id for a statement, with the
+    /// goal state's line and ordinal appended for a harvested goal state.
+    pub qid: String,
+    /// The held-out theorem whose statement or proof the query comes from.
     pub theorem: DeclId,
     /// The goal text given to the ranker.
     pub goal: String,
@@ -69,10 +74,12 @@ pub fn answer_premises(library: &Library, id: DeclId) -> Vec<DeclId> {
 
 /// The queries for the theorems `ids`.
 pub fn statement_queries(library: &Library, ids: &[DeclId]) -> Vec<EvalQuery> {
+    let trec = TrecIds::new(library);
     ids.iter()
         .map(|&id| {
             let d = library.declaration(id);
             EvalQuery {
+                qid: trec.of(id).to_string(),
                 theorem: id,
                 goal: statement_goal(library, id),
                 relevant: answer_premises(library, id),

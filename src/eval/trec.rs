@@ -2,11 +2,11 @@
 //! figures with trec_eval.
 //!
 //! Takes evaluation queries and ranked lists; gives text in the formats trec_eval reads:
-//! run lines `qid Q0 docno rank score tag` and qrels lines `qid 0 docno relevance`. Query
-//! and document ids are fully qualified declaration names (with `#<id>` appended to the rare
-//! name two declarations share). Scores are written strictly
-//! decreasing within a query, because trec_eval orders by score (breaking ties by document
-//! id), not by the rank column.
+//! run lines `qid Q0 docno rank score tag` and qrels lines `qid 0 docno relevance`.
+//! Document ids (and the query ids of statements) are fully qualified declaration names
+//! (with `#<id>` appended to the rare name two declarations share); a goal state's query id
+//! adds its line and ordinal. Scores are written strictly decreasing within a query,
+//! because trec_eval orders by score (breaking ties by document id), not by the rank column.
 
 use std::collections::HashMap;
 use std::fmt::Write;
@@ -65,9 +65,8 @@ pub fn qrels(library: &Library, queries: &[EvalQuery]) -> String {
     let ids = TrecIds::new(library);
     let mut out = String::new();
     for q in queries {
-        let qid = ids.of(q.theorem);
         for r in &q.relevant {
-            let _ = writeln!(out, "{qid} 0 {} 1", ids.of(*r));
+            let _ = writeln!(out, "{} 0 {} 1", q.qid, ids.of(*r));
         }
     }
     out
@@ -79,7 +78,7 @@ pub fn run_file(library: &Library, runs: &[QueryRun], tag: &str) -> String {
     let mut out = String::new();
     let tag = trec_id(tag);
     for r in runs {
-        let qid = ids.of(r.theorem);
+        let qid = &r.qid;
         let mut previous = f64::INFINITY;
         for (i, (doc, score)) in r.ranked.iter().enumerate() {
             // Keep the order trec_eval will see equal to ours: strictly decreasing scores.

@@ -50,7 +50,8 @@ pub const VOTABLE_PART: &str = "neighbours/votable.bin";
 
 /// Chooses fusion weights on an index being built, given the validation theorems (it runs
 /// the signals, so it lives with the caller: evaluation has the queries and metrics).
-pub type FusionTuner = dyn Fn(&OpenIndex, &[DeclId]) -> Result<FusionTuning, String> + Sync;
+pub type FusionTuner<'t> =
+    dyn Fn(&OpenIndex, &[DeclId]) -> Result<FusionTuning, String> + Sync + 't;
 
 /// How the fusion weights of a build are chosen.
 #[derive(Clone, Copy, Default)]
@@ -61,7 +62,7 @@ pub enum FusionChoice<'a> {
     /// These weights.
     Fixed(&'a FusionWeights),
     /// By this tuner, on the validation theorems.
-    Tuned(&'a FusionTuner),
+    Tuned(&'a FusionTuner<'a>),
 }
 
 /// What a build learns from and how.
