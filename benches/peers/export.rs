@@ -217,7 +217,7 @@ fn run(out: &Path, repeats: usize) -> Result<(), String> {
         let (a, b) = bm25_queries.split_at(bm25_queries.len() / 2);
         std::thread::scope(|s| {
             for half in [a, b] {
-                s.spawn(|| {
+                s.spawn(move || {
                     for q in half {
                         std::hint::black_box(search(q));
                     }
