@@ -56,6 +56,7 @@ fn bench_throughput(c: &mut Criterion) {
         ),
         |b| b.iter(|| black_box(encoder.encode_texts(black_box(&sentences), |_| {}))),
     );
+    group.throughput(Throughput::Elements(1));
     group.bench_function("one goal (query time)", |b| {
         b.iter(|| black_box(encoder.encode_tokens(black_box(&["ring", "size", "le", "capacity"]))))
     });

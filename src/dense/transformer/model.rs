@@ -364,3 +364,79 @@ impl ModelFolder {
         })
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A tiny BERT configuration with the fields of all-MiniLM-L6-v2's `config.json`.
+    const CONFIG: &str = r#"{"vocab_size": 30, "hidden_size": 8, "num_hidden_layers": 1,
+        "num_attention_heads": 2, "intermediate_size": 16, "hidden_act": "gelu",
+        "hidden_dropout_prob": 0.1, "max_position_embeddings": 32, "type_vocab_size": 2,
+        "initializer_range": 0.02, "layer_norm_eps": 1e-12, "pad_token_id": 0,
+        "model_type": "bert"}"#;
+    const MODULES: &str = r#"[{"idx": 0, "name": "0", "path": "", "type": "sentence_transformers.models.Transformer"},
+        {"idx": 1, "name": "1", "path": "1_Pooling", "type": "sentence_transformers.models.Pooling"},
+        {"idx": 2, "name": "2", "path": "2_Normalize", "type": "sentence_transformers.models.Normalize"}]"#;
+    const POOLING: &str = r#"{"word_embedding_dimension": 8, "pooling_mode_mean_tokens": true}"#;
+
+    /// A model folder with the configuration files (no tokenizer, no weights).
+    fn folder(config: &str, modules: &str, pooling: &str) -> tempfile::TempDir {
+        let dir = tempfile::tempdir().expect("temporary folder");
+        fs::write(dir.path().join(CONFIG_FILE), config).expect("config");
+        fs::write(dir.path().join(MODULES_FILE), modules).expect("modules");
+        fs::create_dir_all(dir.path().join("1_Pooling")).expect("pooling folder");
+        fs::write(dir.path().join(DEFAULT_POOLING_FILE), pooling).expect("pooling");
+        dir
+    }
+
+    fn error_of(dir: &tempfile::TempDir) -> TransformerError {
+        match ModelFolder::read(dir.path()) {
+            Err(e) => e,
+            Ok(_) => panic!("a folder without weights was read"),
+        }
+    }
+
+    #[test]
+    fn the_first_missing_file_is_named() {
+        let dir = folder(CONFIG, MODULES, POOLING);
+        match error_of(&dir) {
+            TransformerError::MissingFile { file, .. } => assert_eq!(file, TOKENIZER_FILE),
+            other => panic!("expected a missing tokenizer, got {other}"),
+        }
+        fs::write(dir.path().join(TOKENIZER_FILE), "{}").expect("tokenizer");
+        match error_of(&dir) {
+            TransformerError::MissingFile { file, .. } => assert_eq!(file, WEIGHTS_FILE),
+            other => panic!("expected missing weights, got {other}"),
+        }
+        let gone = tempfile::tempdir().expect("temporary folder");
+        let e = ModelFolder::read(&gone.path().join("nothing")).err();
+        assert!(matches!(e, Some(TransformerError::NotAFolder(_))));
+    }
+
+    #[test]
+    fn what_quarry_cannot_run_is_refused_with_the_file() {
+        let dense = MODULES.replace("Normalize", "Dense");
+        let e = error_of(&folder(CONFIG, &dense, POOLING)).to_string();
+        assert!(e.contains("modules.json") && e.contains("`Dense`"), "{e}");
+
+        let roberta = CONFIG.replace("\"bert\"", "\"roberta\"");
+        let e = error_of(&folder(&roberta, MODULES, POOLING)).to_string();
+        assert!(e.contains("config.json") && e.contains("roberta"), "{e}");
+
+        let heads = CONFIG.replace("\"num_attention_heads\": 2", "\"num_attention_heads\": 3");
+        let e = error_of(&folder(&heads, MODULES, POOLING)).to_string();
+        assert!(e.contains("not a multiple"), "{e}");
+
+        let wide = POOLING.replace(": 8", ": 16");
+        match error_of(&folder(CONFIG, MODULES, &wide)) {
+            TransformerError::Dimensions {
+                found, expected, ..
+            } => assert_eq!((found, expected), (16, 8)),
+            other => panic!("expected a dimension mismatch, got {other}"),
+        }
+
+        let e = error_of(&folder("{\"hidden_size\": 8}", MODULES, POOLING)).to_string();
+        assert!(e.contains("not a BERT configuration"), "{e}");
+    }
+}
