@@ -8,11 +8,12 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::Args;
 use quarry::dense::transformer::DEFAULT_BATCH_SIZE;
-use quarry::eval::tune_fusion;
+use quarry::eval::states::{read_states, side_queries, training_states};
+use quarry::eval::tune_fusion_on;
 use quarry::extract::{build_library, walk::WalkError, BuildOptions, CoqPrefix};
 use quarry::index::dense::{DenseMode, TransformerChoice};
 use quarry::index::{build_index_with, BuildConfig, FusionChoice};
-use quarry::library::{store, Library, Severity};
+use quarry::library::{store, DeclId, Library, Severity};
 use quarry::retrieve::fusion::FusionWeights;
 use quarry::retrieve::Signal;
 
@@ -51,6 +52,11 @@ pub struct BuildArgs {
     /// Seed of the validation hold-out and of the encoder.
     #[arg(long, default_value_t = 1)]
     seed: u64,
+    /// Goal states harvested from this library's proofs (`quarry harvest --out
+    /// STATES.jsonl`): the learned encoder learns from them beside the statements, and the
+    /// fusion is tuned on those of the validation theorems.
+    #[arg(long, value_name = "STATES.jsonl")]
+    states: Option<PathBuf>,
 }
 
 /// Reads `--dense`: `learned`, `off`, or `transformer:MODEL_DIR` (batch size the default).
@@ -135,7 +141,8 @@ fn report_embeddings(gen: &std::path::Path) {
     };
     if d["mode"] == "transformer" {
         println!(
-            "transformer embeddings of {} declarations: {} texts re-used, {} computed              (cache: {}); model `{}`, {} dimensions, {} pooling{}",
+            "transformer embeddings of {} declarations: {} texts re-used, {} computed (cache: \
+             {}); model `{}`, {} dimensions, {} pooling{}",
             d["statements"],
             d["reused"],
             d["computed"],
@@ -200,8 +207,20 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
         weights,
         ..FusionWeights::default()
     });
-    let tuner = |index: &quarry::index::OpenIndex, validation: &[quarry::library::DeclId]| {
-        tune_fusion(index, validation).map_err(|e| e.to_string())
+    let records = match &args.states {
+        Some(path) => Some(read_states(path)?),
+        None => None,
+    };
+    let records = records.as_deref();
+    let all: Vec<DeclId> = library.declarations.iter().map(|d| d.id).collect();
+    // Only training theorems' states are learned from: the build drops the others.
+    let states = match records {
+        Some(records) => training_states(&library, records, &all),
+        None => Vec::new(),
+    };
+    let tuner = |index: &quarry::index::OpenIndex, validation: &[DeclId]| {
+        let (queries, _) = side_queries(records, &index.library, validation);
+        tune_fusion_on(index, &queries).map_err(|e| e.to_string())
     };
     let config = BuildConfig {
         dense,
@@ -210,6 +229,7 @@ pub fn run(args: BuildArgs) -> anyhow::Result<ExitCode> {
             None => FusionChoice::Tuned(&tuner),
         },
         seed: args.seed,
+        states: &states,
         ..BuildConfig::default()
     };
     let (gen, timings) = build_index_with(&args.out, &library, settings, &config)
