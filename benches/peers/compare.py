@@ -120,8 +120,8 @@ def bm25_peers(corpus, queries, repeats):
     out["rank_bm25_index_seconds"] = statistics.median(builds)
     out["rank_bm25_top10"] = [okapi_top(q) for q in queries]
     # rank_bm25 scores every document per query in Python and numpy: one repeat of the
-    # 500 goals takes minutes, so it runs fewer times.
-    few = max(1, min(repeats, 2))
+    # 500 goals takes about a minute, so it runs once.
+    few = 1
     runs = timed(few, lambda: [okapi_top(q) for q in queries])
     out["rank_bm25_qps_1_thread"] = len(queries) / statistics.median(runs)
     with ThreadPoolExecutor(2) as pool:
