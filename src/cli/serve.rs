@@ -16,6 +16,7 @@ use clap::Args;
 use quarry::extract::{build_library, BuildOptions};
 use quarry::library::store;
 use quarry::server::auth::BearerToken;
+use quarry::server::listen::ConnectionLimits;
 use quarry::server::routes::Limits;
 use quarry::server::{serve, ServeEvent, ServerConfig, DEFAULT_LISTEN};
 
@@ -46,6 +47,17 @@ pub struct ServeArgs {
     /// Longest a request may take before it is answered 504 (`5s`, `500ms`).
     #[arg(long, default_value = "5s", value_name = "DURATION", value_parser = parse_duration)]
     request_timeout: Duration,
+    /// Longest a request body may take to arrive in full (`5s`); a slower sender is answered
+    /// 408 `body_timeout`. It counts within --request-timeout.
+    #[arg(long, default_value = "5s", value_name = "DURATION", value_parser = parse_duration)]
+    body_timeout: Duration,
+    /// Longest a client may take to send a whole request head (`10s`); a slower client, or
+    /// a keep-alive connection idle that long, is disconnected.
+    #[arg(long, default_value = "10s", value_name = "DURATION", value_parser = parse_duration)]
+    header_timeout: Duration,
+    /// Connections open at once; more are closed as soon as they are accepted.
+    #[arg(long, default_value_t = 1024, value_name = "N")]
+    max_connections: usize,
     /// Rankings computed at once (default: one per core).
     #[arg(long, value_name = "N")]
     workers: Option<usize>,
@@ -243,8 +255,13 @@ pub fn run(args: ServeArgs) -> anyhow::Result<ExitCode> {
         limits: Limits {
             max_body_bytes: args.max_body,
             request_timeout: args.request_timeout,
+            body_timeout: args.body_timeout,
             workers: args.workers.unwrap_or(defaults.workers).max(1),
             max_pending: args.max_pending.max(1),
+        },
+        connections: ConnectionLimits {
+            header_read_timeout: args.header_timeout,
+            max_connections: args.max_connections.max(1),
         },
         token,
         allow_no_auth: args.insecure_no_auth,

@@ -1,10 +1,14 @@
 //! Reading a JSON request body: content type, size limit, and errors that name the field.
 //!
-//! Takes a request's headers and body stream and a byte limit; gives the decoded value or an
-//! [`ApiError`]: 415 when the body is not `application/json`, 413 when it is over the limit
-//! (checked on the declared length first, then while reading), 400 with the field's path
+//! Takes a request's headers and body stream, a byte limit and a time limit; gives the decoded
+//! value or an [`ApiError`]: 415 when the body is not `application/json`, 413 when it is over
+//! the limit (checked on the declared length first, then while reading), 408 when it has not
+//! arrived in full within the time limit (a client sending a byte a second), 400 with the
+//! field's path
 //! for JSON that is malformed, lacks a field, has an unknown field or a wrong type. It knows
 //! nothing of what the fields mean (see `wire.rs` for that).
+
+use std::time::Duration;
 
 use axum::body::Body;
 use axum::http::{header, HeaderMap};
@@ -24,11 +28,13 @@ pub fn is_json_content_type(headers: &HeaderMap) -> bool {
     essence.eq_ignore_ascii_case("application/json")
 }
 
-/// Reads and decodes a JSON body of at most `limit` bytes.
+/// Reads and decodes a JSON body of at most `limit` bytes, which must arrive in full within
+/// `timeout`.
 pub async fn json_body<T: DeserializeOwned>(
     headers: &HeaderMap,
     body: Body,
     limit: usize,
+    timeout: Duration,
 ) -> Result<T, ApiError> {
     if !is_json_content_type(headers) {
         let sent = headers
@@ -49,7 +55,19 @@ pub async fn json_body<T: DeserializeOwned>(
     if declared.is_some_and(|n| n > limit as u64) {
         return Err(too_large(limit));
     }
-    let bytes = match axum::body::to_bytes(body, limit).await {
+    let read = match tokio::time::timeout(timeout, axum::body::to_bytes(body, limit)).await {
+        Ok(read) => read,
+        Err(_) => {
+            return Err(ApiError::new(
+                ErrorCode::BodyTimeout,
+                format!(
+                    "the request body did not arrive in full within the server's limit of {} ms",
+                    timeout.as_millis()
+                ),
+            ))
+        }
+    };
+    let bytes = match read {
         Ok(b) => b,
         Err(e) => {
             let over = std::error::Error::source(&e)

@@ -37,6 +37,8 @@ pub enum ErrorCode {
     BodyTooLarge,
     /// The body is not `application/json`.
     UnsupportedMediaType,
+    /// The body did not arrive in full within the server's body timeout.
+    BodyTimeout,
     /// The goal is empty or only whitespace.
     GoalEmpty,
     /// The goal text parses to nothing that can be searched for.
@@ -63,7 +65,7 @@ pub enum ErrorCode {
 
 impl ErrorCode {
     /// Every code, for documentation checks.
-    pub const ALL: [ErrorCode; 23] = [
+    pub const ALL: [ErrorCode; 24] = [
         ErrorCode::MalformedJson,
         ErrorCode::MissingField,
         ErrorCode::UnknownField,
@@ -76,6 +78,7 @@ impl ErrorCode {
         ErrorCode::MethodNotAllowed,
         ErrorCode::BodyTooLarge,
         ErrorCode::UnsupportedMediaType,
+        ErrorCode::BodyTimeout,
         ErrorCode::GoalEmpty,
         ErrorCode::GoalUnparsable,
         ErrorCode::GoalTooLarge,
@@ -104,6 +107,7 @@ impl ErrorCode {
             ErrorCode::MethodNotAllowed => "method_not_allowed",
             ErrorCode::BodyTooLarge => "body_too_large",
             ErrorCode::UnsupportedMediaType => "unsupported_media_type",
+            ErrorCode::BodyTimeout => "body_timeout",
             ErrorCode::GoalEmpty => "goal_empty",
             ErrorCode::GoalUnparsable => "goal_unparsable",
             ErrorCode::GoalTooLarge => "goal_too_large",
@@ -132,6 +136,7 @@ impl ErrorCode {
             ErrorCode::AmbiguousDeclaration => StatusCode::CONFLICT,
             ErrorCode::BodyTooLarge => StatusCode::PAYLOAD_TOO_LARGE,
             ErrorCode::UnsupportedMediaType => StatusCode::UNSUPPORTED_MEDIA_TYPE,
+            ErrorCode::BodyTimeout => StatusCode::REQUEST_TIMEOUT,
             ErrorCode::GoalEmpty
             | ErrorCode::GoalUnparsable
             | ErrorCode::GoalTooLarge

@@ -14,6 +14,7 @@
 pub mod auth;
 pub mod body;
 pub mod errors;
+pub mod listen;
 pub mod metrics;
 pub mod reload;
 pub mod routes;
@@ -29,6 +30,7 @@ use tokio::net::TcpListener;
 use tokio::sync::Notify;
 
 use auth::BearerToken;
+use listen::ConnectionLimits;
 use reload::{LiveIndex, ReloadOutcome};
 use routes::{AppState, Limits};
 
@@ -43,6 +45,8 @@ pub struct ServerConfig {
     /// Where to listen; port 0 picks a free port.
     pub listen: SocketAddr,
     pub limits: Limits,
+    /// The header-read timeout and the cap on open connections.
+    pub connections: ConnectionLimits,
     /// The bearer token requests must carry; `None`: no authentication.
     pub token: Option<BearerToken>,
     /// Allow listening on a non-loopback address without a token.
@@ -200,11 +204,14 @@ pub async fn serve(
             }
         }
     };
-    let server = tokio::spawn(async move {
-        axum::serve(listener, app.into_make_service())
-            .with_graceful_shutdown(signal_task)
-            .await
-    });
+    // hyper's own connection loop rather than `axum::serve`, which sets no header-read
+    // timeout: a client that never finishes its request head would hold a connection.
+    let server = tokio::spawn(listen::serve_connections(
+        listener,
+        app,
+        config.connections.clone(),
+        signal_task,
+    ));
 
     match live.reload(true).await {
         ReloadOutcome::Swapped { .. } | ReloadOutcome::Unchanged => {}
@@ -241,11 +248,9 @@ pub async fn serve(
             example_goal: example_goal(&live),
         });
     }
-    match server.await {
-        Ok(Ok(())) => Ok(()),
-        Ok(Err(e)) => Err(ServerError::Serve(e)),
-        Err(join) => Err(ServerError::Serve(std::io::Error::other(join.to_string()))),
-    }
+    server
+        .await
+        .map_err(|join| ServerError::Serve(std::io::Error::other(join.to_string())))
 }
 
 #[cfg(test)]

@@ -276,6 +276,7 @@ pub struct ReloadStatusWire {
 pub struct LimitsWire {
     pub max_body_bytes: u64,
     pub request_timeout_ms: u64,
+    pub body_timeout_ms: u64,
     pub workers: u64,
     pub max_pending: u64,
     pub max_batch: u64,

@@ -197,6 +197,7 @@ pub async fn status(State(state): State<Shared>) -> Result<Json<StatusResponse>,
         limits: LimitsWire {
             max_body_bytes: state.limits.max_body_bytes as u64,
             request_timeout_ms: state.limits.request_timeout.as_millis() as u64,
+            body_timeout_ms: state.limits.body_timeout.as_millis() as u64,
             workers: state.limits.workers as u64,
             max_pending: state.limits.max_pending as u64,
             max_batch: MAX_BATCH as u64,

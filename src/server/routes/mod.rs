@@ -10,6 +10,9 @@
 
 mod info;
 mod rank;
+
+/// Exposed for the fuzz target and its regression test: the checks a decoded body passes.
+pub use rank::rank_request;
 #[cfg(test)]
 mod tests;
 
@@ -39,6 +42,9 @@ pub struct Limits {
     pub max_body_bytes: usize,
     /// Longest a `/v1` request may take, from admission to response.
     pub request_timeout: Duration,
+    /// Longest a request body may take to arrive in full (a slow sender is answered 408 and
+    /// frees its admission slot); it runs inside `request_timeout`.
+    pub body_timeout: Duration,
     /// Rankings computed at once (blocking threads in use).
     pub workers: usize,
     /// `/v1` requests admitted at once (running or waiting for a worker); more get 503.
@@ -51,6 +57,7 @@ impl Default for Limits {
         Limits {
             max_body_bytes: 1024 * 1024,
             request_timeout: Duration::from_secs(5),
+            body_timeout: Duration::from_secs(5),
             workers: cores,
             max_pending: 256,
         }

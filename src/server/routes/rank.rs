@@ -243,7 +243,13 @@ pub async fn rank_one(
     headers: HeaderMap,
     body: Body,
 ) -> Result<Json<RankResponse>, ApiError> {
-    let body: RankBody = json_body(&headers, body, state.limits.max_body_bytes).await?;
+    let body: RankBody = json_body(
+        &headers,
+        body,
+        state.limits.max_body_bytes,
+        state.limits.body_timeout,
+    )
+    .await?;
     let loaded = state.loaded()?;
     let answer = on_worker(&state, move || rank_body(&loaded, &body)).await??;
     Ok(Json(answer))
@@ -255,7 +261,13 @@ pub async fn rank_batch(
     headers: HeaderMap,
     body: Body,
 ) -> Result<Json<BatchResponse>, ApiError> {
-    let batch: BatchBody = json_body(&headers, body, state.limits.max_body_bytes).await?;
+    let batch: BatchBody = json_body(
+        &headers,
+        body,
+        state.limits.max_body_bytes,
+        state.limits.body_timeout,
+    )
+    .await?;
     if batch.items.is_empty() || batch.items.len() > MAX_BATCH {
         return Err(ApiError::new(
             ErrorCode::BatchSize,
