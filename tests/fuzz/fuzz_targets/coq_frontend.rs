@@ -1,0 +1,8 @@
+//! libFuzzer target: `checks::coq_frontend` on every input (see `../checks.rs` for what it checks).
+#![no_main]
+
+#[allow(dead_code)]
+#[path = "../checks.rs"]
+mod checks;
+
+libfuzzer_sys::fuzz_target!(|data: &[u8]| checks::coq_frontend(data));
