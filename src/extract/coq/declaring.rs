@@ -100,7 +100,10 @@ impl<'a> Extractor<'a> {
                         &mut body_scan,
                     );
                     let decl = &mut self.out.declarations[idx];
-                    if let (Some(first), Some(last)) = (
+                    // An empty body (`:=` right before the sentence's end) has no span:
+                    // its "first" token would lie after its "last".
+                    if let (false, Some(first), Some(last)) = (
+                        b.is_empty(),
                         tokens.get(b.start),
                         b.end.checked_sub(1).and_then(|e| tokens.get(e)),
                     ) {
