@@ -13,10 +13,11 @@ use std::path::Path;
 
 use quarry::eval::queries::{statement_queries, EvalQuery};
 use quarry::eval::split::{split, Split, SplitConfig, SplitKind};
-use quarry::eval::states::state_queries;
+use quarry::eval::states::{state_queries, training_states};
 use quarry::eval::{run_system, System};
 use quarry::extract::{build_library, BuildOptions};
 use quarry::index::dense::DenseMode;
+use quarry::index::dense::TrainingState;
 use quarry::index::{build_index_with, BuildConfig, FusionChoice, OpenIndex};
 use quarry::library::{DeclId, Library};
 use quarry::retrieve::Signal;
@@ -53,11 +54,23 @@ fn index_of(
     training: Option<&[DeclId]>,
     dir: &Path,
 ) -> OpenIndex {
+    index_with_states(library, split, training, &[], dir)
+}
+
+/// [`index_of`], the encoder also learning from the goal states of training theorems.
+fn index_with_states(
+    library: &Library,
+    split: &Split,
+    training: Option<&[DeclId]>,
+    states: &[TrainingState],
+    dir: &Path,
+) -> OpenIndex {
     let config = BuildConfig {
         dense: DenseMode::Learned,
         training,
         validation: Some(&split.validation),
         fusion: FusionChoice::Equal,
+        states,
         seed: 3,
     };
     build_index_with(dir, library, BTreeMap::new(), &config).expect("the index builds");
@@ -278,19 +291,39 @@ fn no_held_out_proof_reaches_the_index_answering_goal_states() {
             );
         }
     }
-    let honest = index_of(
+    // The encoder learns from the training theorems' goal states, as `quarry eval
+    // --states` builds it; the leaky build is handed every theorem's.
+    let honest_states = training_states(&library, &records, &split.train);
+    assert!(
+        !honest_states.is_empty(),
+        "training theorems have goal states"
+    );
+    let honest = index_with_states(
         &library,
         &split,
         Some(&split.train),
+        &honest_states,
         &tmp.path().join("honest"),
     );
     let found = leaks_for(&honest, &split, &queries);
     assert!(found.is_empty(), "held-out proofs leak: {found:#?}");
-    let leaky = index_of(&library, &split, None, &tmp.path().join("leaky"));
+    let all: Vec<DeclId> = library.declarations.iter().map(|d| d.id).collect();
+    let every_state = training_states(&library, &records, &all);
+    let leaky = index_with_states(
+        &library,
+        &split,
+        None,
+        &every_state,
+        &tmp.path().join("leaky"),
+    );
     let found = leaks_for(&leaky, &split, &queries);
     assert!(
         found.iter().any(|f| f.contains("votes")),
         "a build learning from test proofs was not caught on goal states: {found:#?}"
+    );
+    assert!(
+        found.iter().any(|f| f.contains("encoder was trained")),
+        "an encoder trained on test goal states was not caught: {found:#?}"
     );
 }
 

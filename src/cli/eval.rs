@@ -7,17 +7,16 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
-use quarry::eval::queries::{statement_queries, EvalQuery};
+use quarry::eval::queries::EvalQuery;
 use quarry::eval::report::{compare, Report, SplitCounts, SystemReport};
 use quarry::eval::split::{eligible_theorems, split, SplitConfig, SplitKind};
-use quarry::eval::states::{read_states, state_queries, StateCounts};
+use quarry::eval::states::{read_states, side_queries, training_states};
 use quarry::eval::{run_system, summarise, trec, System};
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
-use quarry::harvest::GoalRecord;
 use quarry::index::dense::DenseMode;
 use quarry::index::lexical::FieldBoosts;
 use quarry::index::{build_index_with, BuildConfig, FusionChoice, OpenIndex};
-use quarry::library::{DeclId, Library};
+use quarry::library::DeclId;
 use quarry::retrieve::Signal;
 
 /// Arguments of `quarry eval`.
@@ -125,6 +124,11 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         None => None,
     };
     let records = records.as_deref();
+    // The goal states of training theorems are learned from, as their statements are.
+    let training_states = match records {
+        Some(records) => training_states(&library, records, &split.train),
+        None => Vec::new(),
+    };
     let t = Instant::now();
     let scratch = tempfile::tempdir().context("cannot make a temporary folder for the index")?;
     let mut settings = BTreeMap::new();
@@ -132,13 +136,14 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
     // Only the training part is learned from, and the fusion is tuned on the validation
     // part: no test proof may reach the index that answers it.
     let tuner = |index: &OpenIndex, validation: &[DeclId]| {
-        let (queries, _) = queries_of(records, &index.library, validation);
+        let (queries, _) = side_queries(records, &index.library, validation);
         quarry::eval::tune_fusion_on(index, &queries).map_err(|e| e.to_string())
     };
     let config = BuildConfig {
         training: Some(&split.train),
         validation: Some(&split.validation),
         fusion: FusionChoice::Tuned(&tuner),
+        states: &training_states,
         seed: args.seed,
         dense: args.dense.clone(),
     };
@@ -150,7 +155,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
 
     if args.tune_boosts {
         let t = Instant::now();
-        let (validation, _) = queries_of(records, &index.library, &split.validation);
+        let (validation, _) = side_queries(records, &index.library, &split.validation);
         let best = tune_boosts(&mut index, &validation, &split, depth, args.seed)?;
         println!(
             "chosen on {} validation queries: name {}, conclusion {}, hypotheses {}, text {}\n",
@@ -164,7 +169,7 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         seconds.insert("tune_boosts".to_string(), t.elapsed().as_secs_f64());
     }
 
-    let (queries, state_counts) = queries_of(records, &index.library, &split.test);
+    let (queries, state_counts) = side_queries(records, &index.library, &split.test);
     if let Some(path) = &args.states {
         println!(
             "goal states `{}`: {} records, {} of held-out theorems, {} queries ({} of an \
@@ -270,23 +275,6 @@ pub fn run(args: EvalArgs) -> anyhow::Result<ExitCode> {
         println!("TREC files written to {}", dir.display());
     }
     Ok(ExitCode::SUCCESS)
-}
-
-/// The queries of a side of the split: its theorems' statements or, with goal-state
-/// records, the goal states harvested from their proofs.
-fn queries_of(
-    records: Option<&[GoalRecord]>,
-    library: &Library,
-    theorems: &[DeclId],
-) -> (Vec<EvalQuery>, StateCounts) {
-    match records {
-        Some(records) => {
-            let mut sorted = theorems.to_vec();
-            sorted.sort_unstable();
-            state_queries(library, records, &sorted)
-        }
-        None => (statement_queries(library, theorems), StateCounts::default()),
-    }
 }
 
 /// Grid search of the lexical field boosts by recall@10 on the validation queries.

@@ -184,6 +184,7 @@ pub fn state_queries(
     };
     let mut queries = Vec::new();
     let mut ordinal: HashMap<DeclId, usize> = HashMap::new();
+    let mut cached: Option<(DeclId, crate::retrieve::accessible::PremiseFilter)> = None;
     for record in records {
         let Ok(file) = file_by_path(library, &record.file) else {
             // Unknown files cannot say which side their theorem is on: count them all.
@@ -208,7 +209,14 @@ pub fn state_queries(
             module: d.module,
             line: Some(d.statement_span.start.line),
         };
-        let accessible = accessible_premises(library, Some(&place), Some(&DEFAULT_KINDS));
+        // Records come grouped by theorem: one filter per theorem, not per record.
+        if cached.as_ref().map(|c| c.0) != Some(theorem) {
+            let filter = accessible_premises(library, Some(&place), Some(&DEFAULT_KINDS));
+            cached = Some((theorem, filter));
+        }
+        let Some((_, accessible)) = cached.as_ref() else {
+            continue;
+        };
         let mut relevant: Vec<DeclId> = Vec::new();
         for name in &record.premises {
             match names
@@ -238,6 +246,44 @@ pub fn state_queries(
     }
     counts.queries = queries.len();
     (queries, counts)
+}
+
+/// The queries of a side of a split: its theorems' statements or, with goal-state
+/// records, the goal states harvested from their proofs (with the counts of those dropped).
+pub fn side_queries(
+    records: Option<&[GoalRecord]>,
+    library: &Library,
+    theorems: &[DeclId],
+) -> (Vec<EvalQuery>, StateCounts) {
+    match records {
+        Some(records) => {
+            let mut sorted = theorems.to_vec();
+            sorted.sort_unstable();
+            state_queries(library, records, &sorted)
+        }
+        None => (
+            super::queries::statement_queries(library, theorems),
+            StateCounts::default(),
+        ),
+    }
+}
+
+/// The goal states of `records` whose theorems are among `theorems`, as training states
+/// for the learned encoder.
+pub fn training_states(
+    library: &Library,
+    records: &[GoalRecord],
+    theorems: &[DeclId],
+) -> Vec<crate::index::dense::TrainingState> {
+    side_queries(Some(records), library, theorems)
+        .0
+        .into_iter()
+        .map(|q| crate::index::dense::TrainingState {
+            theorem: q.theorem,
+            goal: q.goal,
+            premises: q.relevant,
+        })
+        .collect()
 }
 
 #[cfg(test)]

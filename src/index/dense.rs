@@ -152,6 +152,7 @@ pub fn build_dense_part(
     tokenizer: &Arc<Tokenizer>,
     lexical: &LexicalIndex,
     training: &[DeclId],
+    states: &[TrainingState],
     validation: &[DeclId],
     seed: u64,
     index_dir: &Path,
@@ -160,8 +161,9 @@ pub fn build_dense_part(
     match mode {
         DenseMode::Off => Ok((None, serde_json::json!({ "mode": "off" }))),
         DenseMode::Learned => {
-            let (part, summary) =
-                build_dense(library, tokenizer, lexical, training, validation, seed)?;
+            let (part, summary) = build_dense(
+                library, tokenizer, lexical, training, states, validation, seed,
+            )?;
             part.save(writer)?;
             let mut value = serde_json::to_value(&summary).unwrap_or_default();
             if let Some(map) = value.as_object_mut() {
@@ -216,13 +218,29 @@ pub fn premise_tokens(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> V
     out
 }
 
+/// A goal state a training proof passed through (harvested by `quarry harvest`), with the
+/// premises its next tactic named: learned from beside the theorem statements.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TrainingState {
+    /// The theorem whose proof shows the state; the state is used only when it is a
+    /// training theorem.
+    pub theorem: DeclId,
+    /// The goal display, read as a pasted goal is.
+    pub goal: String,
+    /// The declarations the tactic named.
+    pub premises: Vec<DeclId>,
+}
+
 /// The training data: one goal per training theorem whose proof uses a premise, one pair
-/// per premise used, and BM25 hard negatives. Only theorems in `training` appear.
+/// per premise used, and BM25 hard negatives; then one goal per goal state of a training
+/// theorem, one pair per premise its tactic named. Only theorems in `training` (sorted)
+/// appear.
 pub fn training_data(
     library: &Library,
     tokenizer: &Tokenizer,
     lexical: &LexicalIndex,
     training: &[DeclId],
+    states: &[TrainingState],
     premises: Vec<Vec<String>>,
 ) -> Result<(TrainingData, Vec<DeclId>), LexicalError> {
     let mut data = TrainingData {
@@ -230,6 +248,36 @@ pub fn training_data(
         ..TrainingData::default()
     };
     let mut goal_ids = Vec::new();
+    let mut add_goal = |data: &mut TrainingData,
+                        theorem: DeclId,
+                        terms: &[QueryTerm],
+                        used: &HashSet<DeclId>|
+     -> Result<(), LexicalError> {
+        let negatives: Vec<u32> = lexical
+            .search(
+                terms,
+                &super::lexical::FieldBoosts::default(),
+                None,
+                NEGATIVE_POOL,
+            )?
+            .into_iter()
+            .map(|h| h.0)
+            .filter(|d| *d != theorem && !used.contains(d))
+            .take(NEGATIVES_PER_PAIR)
+            .map(|d| d.0)
+            .collect();
+        let goal = data.goals.len() as u32;
+        data.goals
+            .push(terms.iter().map(|t| t.text.clone()).collect());
+        goal_ids.push(theorem);
+        let mut used: Vec<DeclId> = used.iter().copied().collect();
+        used.sort();
+        for p in used {
+            data.pairs.push(TrainingPair { goal, premise: p.0 });
+            data.hard_negatives.push(negatives.clone());
+        }
+        Ok(())
+    };
     for &t in training {
         if library.graph.proof_uses.degree(t) == 0 {
             continue;
@@ -238,31 +286,24 @@ pub fn training_data(
         if terms.is_empty() {
             continue;
         }
-        let tokens: Vec<String> = terms.iter().map(|t| t.text.clone()).collect();
         let used: HashSet<DeclId> = library.graph.premises(t).collect();
-        let negatives: Vec<u32> = lexical
-            .search(
-                &terms,
-                &super::lexical::FieldBoosts::default(),
-                None,
-                NEGATIVE_POOL,
-            )?
-            .into_iter()
-            .map(|h| h.0)
-            .filter(|d| *d != t && !used.contains(d))
-            .take(NEGATIVES_PER_PAIR)
-            .map(|d| d.0)
-            .collect();
-        let goal = data.goals.len() as u32;
-        data.goals.push(tokens);
-        goal_ids.push(t);
-        let mut used: Vec<DeclId> = used.into_iter().collect();
-        used.sort();
-        for p in used {
-            data.pairs.push(TrainingPair { goal, premise: p.0 });
-            data.hard_negatives.push(negatives.clone());
-        }
+        add_goal(&mut data, t, &terms, &used)?;
     }
+    for state in states {
+        if training.binary_search(&state.theorem).is_err() || state.premises.is_empty() {
+            continue;
+        }
+        let terms = parse_goal(&state.goal)
+            .map(|goal| goal.query_terms(tokenizer, GoalSelection::First))
+            .unwrap_or_default();
+        if terms.is_empty() {
+            continue;
+        }
+        let used: HashSet<DeclId> = state.premises.iter().copied().collect();
+        add_goal(&mut data, state.theorem, &terms, &used)?;
+    }
+    goal_ids.sort_unstable();
+    goal_ids.dedup();
     Ok((data, goal_ids))
 }
 
@@ -273,6 +314,7 @@ pub fn build_dense(
     tokenizer: &Arc<Tokenizer>,
     lexical: &LexicalIndex,
     training: &[DeclId],
+    states: &[TrainingState],
     validation: &[DeclId],
     seed: u64,
 ) -> Result<(DensePart, DenseSummary), DenseBuildError> {
@@ -282,7 +324,7 @@ pub fn build_dense(
         .iter()
         .map(|d| premise_tokens(library, tokenizer, d.id))
         .collect();
-    let (data, goal_ids) = training_data(library, tokenizer, lexical, training, premises)?;
+    let (data, goal_ids) = training_data(library, tokenizer, lexical, training, states, premises)?;
     let mut check = Validation {
         k: 10,
         ..Validation::default()
@@ -320,7 +362,7 @@ pub fn build_dense(
     let summary = DenseSummary {
         buckets: config.encoder.buckets,
         dim: config.encoder.dim,
-        goals: goal_ids.len(),
+        goals: data.goals.len(),
         pairs: data.pairs.len(),
         hard_negatives: data.hard_negatives.iter().map(Vec::len).sum(),
         epoch_loss: report.epochs.iter().map(|e| e.mean_loss).collect(),

@@ -77,6 +77,9 @@ pub struct BuildConfig<'a> {
     /// of the training part.
     pub validation: Option<&'a [DeclId]>,
     pub fusion: FusionChoice<'a>,
+    /// Goal states harvested from the library's proofs: the learned encoder learns from
+    /// those of training theorems beside the statements (the others are ignored).
+    pub states: &'a [dense::TrainingState],
     /// Seed of the validation split and of the encoder.
     pub seed: u64,
 }
@@ -88,6 +91,7 @@ impl Default for BuildConfig<'_> {
             training: None,
             validation: None,
             fusion: FusionChoice::Equal,
+            states: &[],
             seed: 1,
         }
     }
@@ -265,6 +269,7 @@ pub fn build_index_with(
         &tokenizer,
         &lexical,
         &training,
+        config.states,
         &validation,
         config.seed,
         index_dir,
