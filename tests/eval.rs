@@ -397,6 +397,34 @@ fn quarry_eval_measures_goal_states_and_refuses_a_broken_file() {
             "qrels query {qid} is not a held-out theorem's"
         );
     }
+    // `quarry build --states`: the encoder learns from the goal states beside the
+    // statements, so it has more training goals than the same build without them.
+    let dense_goals = |extra: &[&std::ffi::OsStr]| {
+        let dir = tempfile::tempdir().unwrap();
+        let run = std::process::Command::new(env!("CARGO_BIN_EXE_quarry"))
+            .arg("build")
+            .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("index_fixtures/coq"))
+            .arg("--out")
+            .arg(dir.path().join("idx"))
+            .args(extra)
+            .output()
+            .unwrap();
+        assert!(
+            run.status.success(),
+            "{}",
+            String::from_utf8_lossy(&run.stderr)
+        );
+        let generation = quarry::library::store::open_generation(&dir.path().join("idx")).unwrap();
+        generation.manifest.settings["dense"]["goals"]
+            .as_u64()
+            .unwrap_or(0)
+    };
+    let without = dense_goals(&[]);
+    let with = dense_goals(&["--states".as_ref(), states.as_os_str()]);
+    assert!(
+        without > 0 && with > without,
+        "training goals without states {without}, with {with}"
+    );
     // A broken line: refused, naming the file and the line.
     std::fs::write(&states, format!("{}\n{{\"goal\": 3}}\n", lines[0])).unwrap();
     let run = std::process::Command::new(env!("CARGO_BIN_EXE_quarry"))
