@@ -188,13 +188,18 @@ pub fn build_dense_part(
     }
 }
 
+/// The query terms of a goal text read as a pasted goal is read, first goal only (empty
+/// when it does not parse).
+pub fn text_terms(tokenizer: &Tokenizer, text: &str) -> Vec<QueryTerm> {
+    parse_goal(text)
+        .map(|goal| goal.query_terms(tokenizer, GoalSelection::First))
+        .unwrap_or_default()
+}
+
 /// The query terms of a theorem's statement read as a goal, as a pasted goal is read
 /// (empty when it does not parse).
 pub fn goal_terms(library: &Library, tokenizer: &Tokenizer, id: DeclId) -> Vec<QueryTerm> {
-    let d = library.declaration(id);
-    parse_goal(&d.statement)
-        .map(|goal| goal.query_terms(tokenizer, GoalSelection::First))
-        .unwrap_or_default()
+    text_terms(tokenizer, &library.declaration(id).statement)
 }
 
 /// The goal-side tokens of a theorem: the texts of [`goal_terms`].
@@ -293,9 +298,7 @@ pub fn training_data(
         if training.binary_search(&state.theorem).is_err() || state.premises.is_empty() {
             continue;
         }
-        let terms = parse_goal(&state.goal)
-            .map(|goal| goal.query_terms(tokenizer, GoalSelection::First))
-            .unwrap_or_default();
+        let terms = text_terms(tokenizer, &state.goal);
         if terms.is_empty() {
             continue;
         }

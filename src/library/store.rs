@@ -476,17 +476,21 @@ pub fn open_generation(index_dir: &Path) -> Result<Generation, StoreError> {
 }
 
 impl Generation {
-    /// Reads one file part and checks it against the manifest's size and checksum.
-    pub fn read_part(&self, name: &str) -> Result<Vec<u8>, StoreError> {
-        let path = self.dir.join(name);
-        let record = self
-            .manifest
+    /// The manifest's record of part `name`.
+    fn part_record(&self, name: &str) -> Result<&PartRecord, StoreError> {
+        self.manifest
             .parts
             .get(name)
             .ok_or_else(|| StoreError::Corrupt {
                 path: self.dir.join(MANIFEST),
                 message: format!("lists no part `{name}`"),
-            })?;
+            })
+    }
+
+    /// Reads one file part and checks it against the manifest's size and checksum.
+    pub fn read_part(&self, name: &str) -> Result<Vec<u8>, StoreError> {
+        let path = self.dir.join(name);
+        let record = self.part_record(name)?;
         let bytes = fs::read(&path).map_err(io_err(&path))?;
         if bytes.len() as u64 != record.bytes {
             return Err(StoreError::Corrupt {
@@ -511,14 +515,7 @@ impl Generation {
     /// Checks a folder part against the manifest.
     pub fn verify_folder(&self, name: &str) -> Result<(), StoreError> {
         let path = self.dir.join(name);
-        let record = self
-            .manifest
-            .parts
-            .get(name)
-            .ok_or_else(|| StoreError::Corrupt {
-                path: self.dir.join(MANIFEST),
-                message: format!("lists no part `{name}`"),
-            })?;
+        let record = self.part_record(name)?;
         let actual = folder_checksum(&path)?;
         if &actual != record {
             return Err(StoreError::Corrupt {
