@@ -75,6 +75,10 @@ pub struct TrainConfig {
     pub temperature: f64,
     /// Seed of the example order. Default 1.
     pub seed: u64,
+    /// At most this many pairs per epoch: each epoch trains on the first ones of its own
+    /// shuffled order, so over the epochs different samples are seen. `None` (the
+    /// default): every pair every epoch.
+    pub pairs_per_epoch: Option<usize>,
 }
 
 impl Default for TrainConfig {
@@ -86,6 +90,7 @@ impl Default for TrainConfig {
             learning_rate: 0.05,
             temperature: 0.05,
             seed: 1,
+            pairs_per_epoch: None,
         }
     }
 }
@@ -121,6 +126,9 @@ fn check_config(config: &TrainConfig) -> Result<(), DenseError> {
     let setting = |field, message: String| Err(DenseError::InvalidSetting { field, message });
     if config.batch_size == 0 {
         return setting("batch_size", "must be at least 1".into());
+    }
+    if config.pairs_per_epoch == Some(0) {
+        return setting("pairs_per_epoch", "must be at least 1".into());
     }
     if !(config.learning_rate.is_finite() && config.learning_rate > 0.0) {
         return setting(
@@ -296,7 +304,10 @@ pub fn train(
             .fork(epoch as u64)
             .shuffle(&mut order);
         let mut loss_sum = 0.0;
-        for chunk in order.chunks(config.batch_size) {
+        let seen = config
+            .pairs_per_epoch
+            .map_or(order.len(), |n| n.min(order.len()));
+        for chunk in order[..seen].chunks(config.batch_size) {
             let batch: Vec<Example<'_>> = chunk
                 .iter()
                 .filter_map(|&i| {
@@ -325,7 +336,7 @@ pub fn train(
         }
         report.epochs.push(EpochReport {
             epoch,
-            mean_loss: loss_sum / data.pairs.len().max(1) as f64,
+            mean_loss: loss_sum / seen.max(1) as f64,
             validation_recall: recall(&encoder)?,
             seconds: started.elapsed().as_secs_f64(),
         });

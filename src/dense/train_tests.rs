@@ -145,3 +145,37 @@ fn bad_data_and_settings_are_typed_errors() {
         })
     ));
 }
+
+#[test]
+fn a_pair_budget_per_epoch_trains_on_a_sample_and_no_budget_on_everything() {
+    let (data, _) = ring_and_scheduler_task(8, 60, 80, 0);
+    let cfg = TrainConfig {
+        epochs: 2,
+        ..config()
+    };
+    let bytes = |c: &TrainConfig| train(&data, c, None).expect("valid data").0.to_bytes();
+    let everything = bytes(&cfg);
+    // A budget at least the number of pairs changes nothing.
+    let roomy = TrainConfig {
+        pairs_per_epoch: Some(data.pairs.len()),
+        ..cfg
+    };
+    assert_eq!(bytes(&roomy), everything);
+    // A smaller one trains on fewer pairs, so the encoder differs.
+    let tight = TrainConfig {
+        pairs_per_epoch: Some(data.pairs.len() / 4),
+        ..cfg
+    };
+    assert_ne!(bytes(&tight), everything);
+    let zero = TrainConfig {
+        pairs_per_epoch: Some(0),
+        ..cfg
+    };
+    assert!(matches!(
+        train(&data, &zero, None),
+        Err(DenseError::InvalidSetting {
+            field: "pairs_per_epoch",
+            ..
+        })
+    ));
+}

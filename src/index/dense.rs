@@ -11,13 +11,14 @@
 
 pub mod transformer;
 
-use std::collections::HashSet;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::Instant;
 
+use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::dense::seeded::SplitMix64;
 use crate::dense::transformer::TransformerEncoder;
 use crate::dense::{
     load_encoder, save_encoder, train, DenseError, Encoder, EncoderSettings, IndexParams,
@@ -86,6 +87,17 @@ impl Encoder for DenseEncoder {
 const NEGATIVE_POOL: usize = 8;
 /// Hard negatives kept per training pair.
 const NEGATIVES_PER_PAIR: usize = 3;
+/// Goals whose hard negatives are mined (a seeded sample when there are more). The Coq
+/// standard library with its goal states has about 42,000 training goals, all mined.
+pub const MINED_GOALS: usize = 60_000;
+/// Query terms of a mining query: the goal's most selective ones.
+pub const MINING_TERMS: usize = 16;
+/// The fork of the build seed that draws the mining sample.
+const MINING_SAMPLE: u64 = 0x6d69_6e65;
+/// Training pairs per epoch (a fresh seeded sample each epoch when there are more): keeps
+/// training's cost flat past the size of a large library. The Coq standard library with
+/// its goal states has fewer.
+pub const PAIRS_PER_EPOCH: usize = 250_000;
 /// Validation goals the trainer measures recall on (an exact scan per epoch each).
 const VALIDATION_GOALS: usize = 300;
 
@@ -98,6 +110,19 @@ pub fn build_encoder_settings(seed: u64) -> EncoderSettings {
         dim: 64,
         seed,
     }
+}
+
+/// Above this many vectors the HNSW graph is built on rayon's threads: a sequential build
+/// is reproducible (the same vectors give the same graph), a parallel one about as many
+/// times faster as there are cores but dependent on thread timing. Below it, where tests
+/// and libraries the size of the Coq standard library live, builds stay reproducible.
+pub const PARALLEL_GRAPH_ABOVE: usize = 50_000;
+
+/// The vector index settings a build uses for `n` vectors.
+pub fn vector_params(n: usize) -> IndexParams {
+    let mut params = IndexParams::default();
+    params.hnsw.parallel_build = n > PARALLEL_GRAPH_ABOVE;
+    params
 }
 
 /// The encoder and the declarations' vectors.
@@ -240,6 +265,12 @@ pub struct TrainingState {
 /// per premise used, and BM25 hard negatives; then one goal per goal state of a training
 /// theorem, one pair per premise its tactic named. Only theorems in `training` (sorted)
 /// appear.
+///
+/// Hard negatives are mined for at most [`MINED_GOALS`] goals (a sample seeded by `seed`
+/// when there are more; the others learn from in-batch negatives only), each with a BM25
+/// query of its [`MINING_TERMS`] most selective terms, on rayon's threads. Without these
+/// bounds mining was one whole-goal query over the whole library per goal: quadratic in the
+/// library, 90 % of a 100k-declaration build (docs/performance.md).
 pub fn training_data(
     library: &Library,
     tokenizer: &Tokenizer,
@@ -247,42 +278,14 @@ pub fn training_data(
     training: &[DeclId],
     states: &[TrainingState],
     premises: Vec<Vec<String>>,
+    seed: u64,
 ) -> Result<(TrainingData, Vec<DeclId>), LexicalError> {
-    let mut data = TrainingData {
-        premises,
-        ..TrainingData::default()
-    };
-    let mut goal_ids = Vec::new();
-    let mut add_goal = |data: &mut TrainingData,
-                        theorem: DeclId,
-                        terms: &[QueryTerm],
-                        used: &HashSet<DeclId>|
-     -> Result<(), LexicalError> {
-        let negatives: Vec<u32> = lexical
-            .search(
-                terms,
-                &super::lexical::FieldBoosts::default(),
-                None,
-                NEGATIVE_POOL,
-            )?
-            .into_iter()
-            .map(|h| h.0)
-            .filter(|d| *d != theorem && !used.contains(d))
-            .take(NEGATIVES_PER_PAIR)
-            .map(|d| d.0)
-            .collect();
-        let goal = data.goals.len() as u32;
-        data.goals
-            .push(terms.iter().map(|t| t.text.clone()).collect());
-        goal_ids.push(theorem);
-        let mut used: Vec<DeclId> = used.iter().copied().collect();
-        used.sort();
-        for p in used {
-            data.pairs.push(TrainingPair { goal, premise: p.0 });
-            data.hard_negatives.push(negatives.clone());
-        }
-        Ok(())
-    };
+    struct Goal {
+        theorem: DeclId,
+        terms: Vec<QueryTerm>,
+        used: Vec<DeclId>,
+    }
+    let mut goals: Vec<Goal> = Vec::new();
     for &t in training {
         if library.graph.proof_uses.degree(t) == 0 {
             continue;
@@ -291,8 +294,14 @@ pub fn training_data(
         if terms.is_empty() {
             continue;
         }
-        let used: HashSet<DeclId> = library.graph.premises(t).collect();
-        add_goal(&mut data, t, &terms, &used)?;
+        let mut used: Vec<DeclId> = library.graph.premises(t).collect();
+        used.sort_unstable();
+        used.dedup();
+        goals.push(Goal {
+            theorem: t,
+            terms,
+            used,
+        });
     }
     for state in states {
         if training.binary_search(&state.theorem).is_err() || state.premises.is_empty() {
@@ -302,8 +311,58 @@ pub fn training_data(
         if terms.is_empty() {
             continue;
         }
-        let used: HashSet<DeclId> = state.premises.iter().copied().collect();
-        add_goal(&mut data, state.theorem, &terms, &used)?;
+        let mut used = state.premises.clone();
+        used.sort_unstable();
+        used.dedup();
+        goals.push(Goal {
+            theorem: state.theorem,
+            terms,
+            used,
+        });
+    }
+    let mut mined = vec![goals.len() <= MINED_GOALS; goals.len()];
+    if goals.len() > MINED_GOALS {
+        let mut order: Vec<usize> = (0..goals.len()).collect();
+        SplitMix64::new(seed)
+            .fork(MINING_SAMPLE)
+            .shuffle(&mut order);
+        for &i in order.iter().take(MINED_GOALS) {
+            mined[i] = true;
+        }
+    }
+    let boosts = super::lexical::FieldBoosts::default();
+    let negatives: Vec<Vec<u32>> = goals
+        .par_iter()
+        .zip(mined.par_iter())
+        .map(|(g, &mine)| -> Result<Vec<u32>, LexicalError> {
+            if !mine {
+                return Ok(Vec::new());
+            }
+            let query = lexical.most_selective(&g.terms, MINING_TERMS)?;
+            Ok(lexical
+                .search(&query, &boosts, None, NEGATIVE_POOL)?
+                .into_iter()
+                .map(|h| h.0)
+                .filter(|d| *d != g.theorem && g.used.binary_search(d).is_err())
+                .take(NEGATIVES_PER_PAIR)
+                .map(|d| d.0)
+                .collect())
+        })
+        .collect::<Result<_, _>>()?;
+    let mut data = TrainingData {
+        premises,
+        ..TrainingData::default()
+    };
+    let mut goal_ids = Vec::with_capacity(goals.len());
+    for (g, negatives) in goals.into_iter().zip(negatives) {
+        let goal = data.goals.len() as u32;
+        data.goals
+            .push(g.terms.iter().map(|t| t.text.clone()).collect());
+        goal_ids.push(g.theorem);
+        for p in g.used {
+            data.pairs.push(TrainingPair { goal, premise: p.0 });
+            data.hard_negatives.push(negatives.clone());
+        }
     }
     goal_ids.sort_unstable();
     goal_ids.dedup();
@@ -327,7 +386,9 @@ pub fn build_dense(
         .iter()
         .map(|d| premise_tokens(library, tokenizer, d.id))
         .collect();
-    let (data, goal_ids) = training_data(library, tokenizer, lexical, training, states, premises)?;
+    let (data, goal_ids) = training_data(
+        library, tokenizer, lexical, training, states, premises, seed,
+    )?;
     let mut check = Validation {
         k: 10,
         ..Validation::default()
@@ -346,6 +407,7 @@ pub fn build_dense(
     let config = TrainConfig {
         encoder: build_encoder_settings(seed),
         seed,
+        pairs_per_epoch: Some(PAIRS_PER_EPOCH),
         ..TrainConfig::default()
     };
     let (encoder, report) = train(&data, &config, (!check.pairs.is_empty()).then_some(&check))?;
@@ -353,12 +415,12 @@ pub fn build_dense(
     let started = Instant::now();
     let rows: Vec<Vec<f32>> = data
         .premises
-        .iter()
+        .par_iter()
         .map(|p| encoder.encode_premise_tokens(p))
         .collect();
     let vectors = VectorIndex::build(
         VectorSet::from_rows(config.encoder.dim as usize, &rows)?,
-        &IndexParams::default(),
+        &vector_params(rows.len()),
     )?;
     let mut validation_recall: Vec<f64> = report.initial_validation_recall.into_iter().collect();
     validation_recall.extend(report.epochs.iter().filter_map(|e| e.validation_recall));

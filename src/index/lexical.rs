@@ -378,6 +378,44 @@ impl LexicalIndex {
             .collect())
     }
 
+    /// The at most `keep` terms of `terms` that weigh most in BM25's sum: each term's
+    /// weight times its inverse document frequency in the `text` field, idf = ln(1 + (N −
+    /// df + 0.5) / (df + 0.5)) (Robertson and Spärck Jones's idf as BM25 uses it; tantivy's
+    /// Bm25Weight uses the same). Ties go to the term text, so the choice is deterministic.
+    ///
+    /// A query of a whole goal's terms costs about the summed length of their posting
+    /// lists, and the most common terms (`forall`, a library's base type) have posting
+    /// lists as long as the library while adding almost nothing to the scores; hard-negative
+    /// mining queries with these terms only, so its cost does not grow with the library.
+    pub fn most_selective(
+        &self,
+        terms: &[QueryTerm],
+        keep: usize,
+    ) -> Result<Vec<QueryTerm>, LexicalError> {
+        if terms.len() <= keep {
+            return Ok(terms.to_vec());
+        }
+        let searcher = self.reader.searcher();
+        let n = searcher.num_docs() as f64;
+        let mut scored = Vec::with_capacity(terms.len());
+        for t in terms {
+            let df = searcher
+                .doc_freq(&Term::from_field_text(self.fields.text, &t.text))
+                .map_err(|source| LexicalError::Tantivy {
+                    path: self.path.clone(),
+                    source,
+                })? as f64;
+            let idf = (1.0 + (n - df + 0.5) / (df + 0.5)).ln();
+            scored.push((f64::from(t.weight) * idf, t));
+        }
+        scored.sort_by(|a, b| b.0.total_cmp(&a.0).then_with(|| a.1.text.cmp(&b.1.text)));
+        Ok(scored
+            .into_iter()
+            .take(keep)
+            .map(|(_, t)| t.clone())
+            .collect())
+    }
+
     /// The stored declaration id of every document (for checks).
     pub fn document_count(&self) -> usize {
         self.doc_to_decl.iter().map(Vec::len).sum()
@@ -554,5 +592,47 @@ mod tests {
             .is_empty());
         // Opening against a library of another size is refused.
         assert!(LexicalIndex::open(&path, whitespace(), 4).is_err());
+    }
+
+    #[test]
+    fn the_most_selective_terms_are_the_rare_ones() {
+        // idf = ln(1 + (N - df + 0.5) / (df + 0.5)) with N = 4 (BM25's idf, as above):
+        // `slot` (df 4) ln(1 + 0.5/4.5) = 0.105, `push` (df 2) ln 2 = 0.693, `wrap` (df 1)
+        // ln(1 + 3.5/1.5) = 1.204 (worked by hand).
+        let lib = library(&[
+            ("d1", "slot push wrap"),
+            ("d2", "slot push"),
+            ("d3", "slot"),
+            ("d4", "slot"),
+        ]);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), 4).unwrap();
+        let terms = [term("slot"), term("push"), term("wrap")];
+        let texts = |keep| -> Vec<String> {
+            idx.most_selective(&terms, keep)
+                .unwrap()
+                .into_iter()
+                .map(|t| t.text)
+                .collect()
+        };
+        assert_eq!(texts(2), ["wrap", "push"]);
+        assert_eq!(texts(3).len(), 3);
+        // The weight counts too: `slot` at weight 5 scores 0.527 < 0.693 and stays out; at
+        // weight 7 it scores 0.738 and takes `push`'s place.
+        let heavy = |w| QueryTerm {
+            text: "slot".into(),
+            weight: w,
+        };
+        let picked = |w| -> Vec<String> {
+            idx.most_selective(&[heavy(w), term("push"), term("wrap")], 2)
+                .unwrap()
+                .into_iter()
+                .map(|t| t.text)
+                .collect()
+        };
+        assert_eq!(picked(5.0), ["wrap", "push"]);
+        assert_eq!(picked(7.0), ["wrap", "slot"]);
     }
 }

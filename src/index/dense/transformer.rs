@@ -19,7 +19,7 @@ use crate::dense::transformer::{
     cache, text_key, text_of_tokens, CacheSource, EmbeddingCache, ModelFolder, ModelIdentity,
     TextKey, TransformerEncoder, TransformerError,
 };
-use crate::dense::{DenseError, IndexParams, VectorIndex, VectorSet};
+use crate::dense::{DenseError, VectorIndex, VectorSet};
 use crate::library::store::{self, Generation, GenerationWriter, StoreError};
 use crate::library::Library;
 use crate::tokens::Tokenizer;
@@ -153,7 +153,7 @@ pub fn build_transformer_dense(
             })?;
         set.push(v)?;
     }
-    let vectors = VectorIndex::build(set, &IndexParams::default())?;
+    let vectors = VectorIndex::build(set, &super::vector_params(keys.len()))?;
     cache::save_text_keys(writer, &identity.fingerprint, &keys)?;
     let part = DensePart {
         encoder: DenseEncoder::Transformer(Box::new(encoder)),
