@@ -346,6 +346,8 @@ pub struct OpenIndex {
     /// The theorems whose proofs vote in the neighbour signal (sorted): the build's
     /// training part, never a held-out theorem.
     pub votable: Vec<DeclId>,
+    /// The same set as a filter, so a query finds its voters with one AND of two bitsets.
+    pub votable_filter: PremiseFilter,
     /// How often each premise is used by a votable proof.
     pub usage: PremiseUsage,
     /// Parameters of the neighbour vote.
@@ -421,6 +423,10 @@ impl OpenIndex {
             Some(&crate::retrieve::DEFAULT_KINDS),
         ));
         let usage = PremiseUsage::count(&library.graph, library.declarations.len(), &votable);
+        let mut votable_filter = PremiseFilter::none(library.declarations.len());
+        for &t in &votable {
+            votable_filter.insert(t);
+        }
         OpenIndex {
             dir: index_dir.to_path_buf(),
             generation,
@@ -431,6 +437,7 @@ impl OpenIndex {
             lexical_boosts: lexical::FieldBoosts::default(),
             dense,
             votable,
+            votable_filter,
             usage,
             vote_params: VoteParams::default(),
             fusion,

@@ -326,13 +326,7 @@ fn nearest_theorems(
     allowed: &PremiseFilter,
 ) -> Result<Vec<(DeclId, f32)>, RankError> {
     let k = index.vote_params.neighbours;
-    let mut voters = PremiseFilter::none(index.library.declarations.len());
-    for &t in &index.votable {
-        if allowed.contains(t) {
-            voters.insert(t);
-        }
-    }
-    let voters = Arc::new(voters);
+    let voters = Arc::new(index.votable_filter.intersection(allowed));
     let lexical = index
         .lexical
         .search(terms, &index.lexical_boosts, Some(voters.clone()), k)?;
