@@ -132,9 +132,20 @@ fn a_build_killed_anywhere_leaves_the_previous_index_whole_and_served() {
         "no kill landed inside a build (window {window_ms} ms): the test saw no crash"
     );
 
-    // A fresh build after all the crashes succeeds and the server moves to it.
+    // A fresh build after all the crashes succeeds and the server moves to it; it removes
+    // the killed builds' staging folders (their locks died with them).
     build(&lib, &index);
     let last = assert_whole(&index);
+    let leftovers: Vec<String> = std::fs::read_dir(&index)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(".build-"))
+        .collect();
+    assert!(
+        leftovers.is_empty(),
+        "killed builds' staging left behind: {leftovers:?}"
+    );
     assert_ne!(last, first);
     assert!(
         eventually(Duration::from_secs(30), || served_build_id(&server) == last),
@@ -395,6 +406,11 @@ fn a_full_disk_fails_the_build_clearly_and_keeps_the_old_index() {
     assert!(
         err.contains("No space left on device") && err.contains(index.to_str().unwrap()),
         "the error says the disk is full and names the file: {err}"
+    );
+    assert_eq!(
+        err.matches("No space left on device").count(),
+        1,
+        "the OS error is said once: {err}"
     );
     assert!(!err.contains("panicked"), "{err}");
 

@@ -70,10 +70,25 @@ pub fn run() -> ExitCode {
     match result {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("error: {e:#}");
+            eprintln!("error: {}", error_text(&e));
             ExitCode::from(EXIT_FAILURE)
         }
     }
+}
+
+/// The error and its causes in one line, `outer: cause: cause`, leaving out a cause whose
+/// text the line already holds: many of our errors print their cause in their own
+/// message, and anyhow's `{:#}` would print it once per level.
+pub fn error_text(e: &anyhow::Error) -> String {
+    let mut line = e.to_string();
+    for cause in e.chain().skip(1) {
+        let text = cause.to_string();
+        if !line.contains(&text) {
+            line.push_str(": ");
+            line.push_str(&text);
+        }
+    }
+    line
 }
 
 /// Whether stderr is an interactive terminal (progress bars only then).
@@ -88,4 +103,33 @@ pub fn display_path(path: &std::path::Path) -> String {
         .unwrap_or(path)
         .display()
         .to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[derive(Debug, thiserror::Error)]
+    #[error("dense part: `{path}`: {source}")]
+    struct Quoting {
+        path: String,
+        #[source]
+        source: std::io::Error,
+    }
+
+    #[test]
+    fn a_cause_already_in_the_message_is_printed_once() {
+        let io = std::io::Error::other("No space left on device");
+        let e = anyhow::Error::new(Quoting {
+            path: "ledger/.build-1/dense/encoder.bin".into(),
+            source: io,
+        })
+        .context("cannot write the index to `ledger`");
+        let text = error_text(&e);
+        assert_eq!(text.matches("No space left on device").count(), 1, "{text}");
+        assert!(text.starts_with("cannot write the index to `ledger`: dense part: "));
+        // A cause the message does not quote is still given.
+        let plain = anyhow::anyhow!("disk full").context("cannot write the index");
+        assert_eq!(error_text(&plain), "cannot write the index: disk full");
+    }
 }

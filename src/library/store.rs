@@ -172,7 +172,13 @@ pub struct GenerationWriter {
     created: String,
     parts: BTreeMap<String, PartRecord>,
     committed: bool,
+    /// Held locked while the build lives; the kernel releases it when the process dies, so
+    /// another build can tell a dead build's staging folder from a running one's.
+    _lock: fs::File,
 }
+
+/// The lock file inside a staging folder.
+const STAGING_LOCK: &str = ".lock";
 
 impl GenerationWriter {
     /// Starts a generation in `index_dir` (created if missing). Refuses a folder that exists,
@@ -203,6 +209,15 @@ impl GenerationWriter {
         let build_id = format!("{}-{}", stamp.trim_end_matches('Z'), &salt[..12]);
         let staging = index_dir.join(format!(".build-{build_id}"));
         fs::create_dir_all(&staging).map_err(io_err(&staging))?;
+        let lock_path = staging.join(STAGING_LOCK);
+        let lock = fs::File::create(&lock_path).map_err(io_err(&lock_path))?;
+        lock.try_lock().map_err(|e| StoreError::Io {
+            path: lock_path.clone(),
+            source: match e {
+                fs::TryLockError::Error(e) => e,
+                fs::TryLockError::WouldBlock => std::io::Error::other("locked by another build"),
+            },
+        })?;
         Ok(GenerationWriter {
             index_dir: index_dir.to_path_buf(),
             staging,
@@ -210,6 +225,7 @@ impl GenerationWriter {
             created,
             parts: BTreeMap::new(),
             committed: false,
+            _lock: lock,
         })
     }
 
@@ -308,6 +324,10 @@ impl GenerationWriter {
 
         let gen_name = format!("gen-{}", self.build_id);
         let gen_dir = self.index_dir.join(&gen_name);
+        // The lock file is not a part of the generation; the open handle keeps the lock
+        // until the writer is dropped.
+        let lock_path = self.staging.join(STAGING_LOCK);
+        fs::remove_file(&lock_path).map_err(io_err(&lock_path))?;
         fs::rename(&self.staging, &gen_dir).map_err(io_err(&gen_dir))?;
         self.committed = true;
         let previous = read_current(&self.index_dir).ok();
@@ -340,7 +360,9 @@ fn sync_dir(dir: &Path) -> Result<(), StoreError> {
 }
 
 /// Removes generations other than `keep` and `previous`, and staging folders of builds that
-/// died (any `.build-*` not written to for an hour).
+/// died: a staging folder whose lock no process holds (a killed build's: the kernel
+/// released it), or one without a lock file not written to for an hour (a build that died
+/// between creating its folder and its lock). A running build's folder is left alone.
 fn remove_stale(index_dir: &Path, keep: &str, previous: Option<&str>) {
     let Ok(entries) = fs::read_dir(index_dir) else {
         return;
@@ -348,15 +370,23 @@ fn remove_stale(index_dir: &Path, keep: &str, previous: Option<&str>) {
     for e in entries.flatten() {
         let name = e.file_name().to_string_lossy().into_owned();
         let old_gen = name.starts_with("gen-") && name != keep && Some(name.as_str()) != previous;
-        let dead_build = name.starts_with(".build-")
-            && e.metadata()
-                .and_then(|m| m.modified())
-                .ok()
-                .and_then(|t| t.elapsed().ok())
-                .is_some_and(|age| age.as_secs() > 3600);
+        let dead_build = name.starts_with(".build-") && staging_is_dead(&e.path());
         if old_gen || dead_build {
             let _ = fs::remove_dir_all(e.path());
         }
+    }
+}
+
+/// Whether the staging folder `dir` belongs to a build that is no longer running.
+fn staging_is_dead(dir: &Path) -> bool {
+    match fs::File::open(dir.join(STAGING_LOCK)) {
+        // Taken: no live process holds it. The handle drops (unlocking) before the removal.
+        Ok(lock) => lock.try_lock().is_ok(),
+        Err(_) => fs::metadata(dir)
+            .and_then(|m| m.modified())
+            .ok()
+            .and_then(|t| t.elapsed().ok())
+            .is_some_and(|age| age.as_secs() > 3600),
     }
 }
 
@@ -608,4 +638,62 @@ pub fn save_library(
     let mut writer = GenerationWriter::create(index_dir, &inputs)?;
     writer.write_library(library)?;
     writer.commit(library, settings)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn staging_folders(dir: &Path) -> Vec<String> {
+        let mut names: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .flatten()
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .filter(|n| n.starts_with(".build-"))
+            .collect();
+        names.sort();
+        names
+    }
+
+    #[test]
+    fn a_commit_removes_dead_builds_staging_and_spares_a_running_one() {
+        let dir = tempfile::tempdir().unwrap();
+        let library = Library::default();
+        GenerationWriter::create(dir.path(), "first")
+            .unwrap()
+            .commit(&library, BTreeMap::new())
+            .unwrap();
+        // A running build: its writer (and lock) stays alive across the other's commit.
+        let running = GenerationWriter::create(dir.path(), "running").unwrap();
+        // A dead build: a staging folder with a lock file nobody holds, as SIGKILL leaves it.
+        let dead = dir.path().join(".build-20261202T000000-deadbeef0000");
+        fs::create_dir_all(&dead).unwrap();
+        fs::write(dead.join(STAGING_LOCK), b"").unwrap();
+        fs::write(dead.join("half-written.bin"), b"\x00\x01").unwrap();
+        // A fresh folder without a lock (its build may be between mkdir and lock): kept.
+        let young = dir.path().join(".build-20261202T000001-0000feedface");
+        fs::create_dir_all(&young).unwrap();
+
+        let mut writer = GenerationWriter::create(dir.path(), "finishing").unwrap();
+        writer.write_part("ledger.bin", b"balance").unwrap();
+        let live = writer.commit(&library, BTreeMap::new()).unwrap();
+
+        let left = staging_folders(dir.path());
+        assert!(
+            !left.iter().any(|n| dead.ends_with(n)),
+            "dead staging kept: {left:?}"
+        );
+        assert!(
+            left.iter().any(|n| young.ends_with(n)),
+            "young staging removed: {left:?}"
+        );
+        assert!(
+            left.iter().any(|n| running.staging_dir().ends_with(n)),
+            "a running build's staging was removed: {left:?}"
+        );
+        // The committed generation carries no lock file.
+        assert!(!live.join(STAGING_LOCK).exists());
+        assert!(open_generation(dir.path()).unwrap().verify_all().is_ok());
+        drop(running);
+    }
 }
