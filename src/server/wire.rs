@@ -29,6 +29,48 @@ fn default_limit() -> u32 {
     DEFAULT_LIMIT
 }
 
+/// Reads an optional field that, when present, must hold a value: `null` is refused with
+/// the field's own type error rather than taken as absent, as the schema says.
+fn present<'de, D, T>(d: D) -> Result<Option<T>, D::Error>
+where
+    D: serde::Deserializer<'de>,
+    T: Deserialize<'de>,
+{
+    T::deserialize(d).map(Some)
+}
+
+/// A whole number that fits `u32`, written as an integer or as a number with no fraction
+/// (`141.0`): JSON Schema counts both as integers (JSON Schema 2020-12, validation §6.1.1),
+/// and clients in languages without an integer type send the second.
+fn whole_u32<'de, D: serde::Deserializer<'de>>(d: D) -> Result<u32, D::Error> {
+    struct Whole;
+    impl serde::de::Visitor<'_> for Whole {
+        type Value = u32;
+        fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+            f.write_str("a whole number from 0 to 4294967295")
+        }
+        fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<u32, E> {
+            u32::try_from(v)
+                .map_err(|_| E::invalid_value(serde::de::Unexpected::Unsigned(v), &self))
+        }
+        fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<u32, E> {
+            u32::try_from(v).map_err(|_| E::invalid_value(serde::de::Unexpected::Signed(v), &self))
+        }
+        fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<u32, E> {
+            if v.fract() == 0.0 && (0.0..=f64::from(u32::MAX)).contains(&v) {
+                Ok(v as u32)
+            } else {
+                Err(E::invalid_value(serde::de::Unexpected::Float(v), &self))
+            }
+        }
+    }
+    d.deserialize_any(Whole)
+}
+
+fn present_whole_u32<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Option<u32>, D::Error> {
+    whole_u32(d).map(Some)
+}
+
 /// `POST /v1/rank`: one goal to rank premises for.
 #[derive(Clone, Debug, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
@@ -36,22 +78,42 @@ pub struct RankBody {
     /// The goal as an editor shows it: hypotheses, a turnstile line, the conclusion.
     pub goal: String,
     /// How many premises to return, 1 to [`MAX_LIMIT`].
-    #[serde(default = "default_limit")]
+    #[serde(default = "default_limit", deserialize_with = "whole_u32")]
     pub limit: u32,
     /// The file the cursor is in, as indexed (or a unique ending of that path).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(
+        default,
+        deserialize_with = "present",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub file: Option<String>,
     /// The module the cursor is in (instead of `file`), by its full name.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(
+        default,
+        deserialize_with = "present",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub module: Option<String>,
     /// The cursor's 1-based line in `file` (or in `module`'s file).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(
+        default,
+        deserialize_with = "present_whole_u32",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub line: Option<u32>,
     /// Only premises of these kinds (`theorem`, `definition`, ...).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(
+        default,
+        deserialize_with = "present",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub kinds: Option<Vec<String>>,
     /// Only these signals (`lexical`, ...); all of the index's signals when absent.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    #[serde(
+        default,
+        deserialize_with = "present",
+        skip_serializing_if = "Option::is_none"
+    )]
     pub signals: Option<Vec<String>>,
     /// Also return each premise's matched terms and voting neighbours.
     #[serde(default)]
@@ -322,6 +384,28 @@ mod tests {
         assert!(!b.explain && !b.all_goals);
         assert!(b.file.is_none() && b.module.is_none() && b.line.is_none());
         assert!(b.kinds.is_none() && b.signals.is_none());
+    }
+
+    #[test]
+    fn whole_numbers_may_be_written_with_a_zero_fraction_and_null_is_not_absence() {
+        // JSON Schema 2020-12 (validation, "type"): 141.0 is an integer; 141.5 is not.
+        let b: RankBody =
+            serde_json::from_str(r#"{"goal": "x", "limit": 141.0, "line": 7.0}"#).unwrap();
+        assert_eq!((b.limit, b.line), (141, Some(7)));
+        for bad in [
+            r#"{"goal": "x", "limit": 141.5}"#,
+            r#"{"goal": "x", "limit": -1}"#,
+            r#"{"goal": "x", "limit": 1e12}"#,
+            r#"{"goal": "x", "limit": "20"}"#,
+            r#"{"goal": "x", "line": 0.25}"#,
+        ] {
+            assert!(serde_json::from_str::<RankBody>(bad).is_err(), "{bad}");
+        }
+        for field in ["file", "module", "line", "kinds", "signals"] {
+            let body = format!(r#"{{"goal": "x", "{field}": null}}"#);
+            let e = serde_json::from_str::<RankBody>(&body).unwrap_err();
+            assert!(e.to_string().contains("null"), "{field}: {e}");
+        }
     }
 
     #[test]
