@@ -53,7 +53,7 @@ fn bench_search(c: &mut Criterion) {
     };
     let recall = recall_against_exact(&hnsw, &queries, 10);
     eprintln!(
-        "HNSW over 20,000 × 256 (M 16, ef_construction 100, sequential): built in {:.1} s; recall@10 {:.4} (worst query {:.2}) at ef_search 64",
+        "HNSW over 20,000 × 256 (M 16, ef_construction 100, sequential): built in {:.1} s; recall@10 {:.4} (worst query {:.2}) at the default ef_search",
         started.elapsed().as_secs_f64(),
         recall.recall,
         recall.worst
@@ -65,7 +65,7 @@ fn bench_search(c: &mut Criterion) {
             black_box(exact.search(&queries[i], 10))
         })
     });
-    c.bench_function("HNSW top-10, 20k × 256, ef_search 64", |b| {
+    c.bench_function("HNSW top-10, 20k × 256, default ef_search", |b| {
         b.iter(|| {
             i = (i + 1) % queries.len();
             black_box(hnsw.search(&queries[i], 10))

@@ -43,7 +43,9 @@ pub struct HnswParams {
     pub m: usize,
     /// Beam width while building. Default 100.
     pub ef_construction: usize,
-    /// Beam width while searching (at least k is used). Default 64.
+    /// Beam width while searching (at least k is used). Default 200: on the Coq standard
+    /// library's vectors recall@10 against an exact scan was 0.962 at 64, 0.976 at 100,
+    /// 0.992 at 200 and 0.998 at 400 (`tests/dense_stdlib.rs`, 500 statement goals).
     pub ef_search: usize,
     /// Insert points from rayon's threads (`hnsw_rs`'s parallel insertion): about as many
     /// times faster as there are cores, but the graph then depends on thread timing, so
@@ -57,7 +59,7 @@ impl Default for HnswParams {
         HnswParams {
             m: 16,
             ef_construction: 100,
-            ef_search: 64,
+            ef_search: 200,
             parallel_build: false,
         }
     }
