@@ -1,22 +1,26 @@
 #!/usr/bin/env bash
 # Load test of `quarry serve` on loopback: POST /v1/rank with 16 concurrent connections.
 #
-#   benches/http_load.sh [INDEX_DIR] [DURATION]
+#   benches/http_load.sh [INDEX_DIR] [DURATION] [BODIES] [CONNECTIONS]
 #
 # Builds the release binary, indexes the demo library (index_fixtures/) unless an index
 # folder is given, starts the server on an ephemeral 127.0.0.1 port, and runs wrk (Debian's
 # `wrk`: apt-get install wrk) for DURATION (default 20s) with 16 connections on 2 threads,
-# each request one of a few goals of the demo library. Prints wrk's latency distribution
+# each request one of a few goals of the demo library, or, with BODIES, one line after another
+# of that file (one JSON request body per line: real goals of the index's library).
+# CONNECTIONS (default 16) sets wrk's concurrent connections. Prints wrk's latency distribution
 # (median, p99) and requests/s, and the server's resident memory (VmRSS) after loading and
 # its peak (VmHWM) after the run. wrk reports any non-2xx answer in its summary. Traffic goes to 127.0.0.1 only, and the run stops by itself.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
 duration="${2:-20s}"
+bodies="${3:-}"
+connections="${4:-16}"
 command -v wrk >/dev/null || { echo "wrk is not installed: apt-get install wrk" >&2; exit 1; }
 
 cargo build --release --quiet
-bin=target/release/quarry
+bin="${CARGO_TARGET_DIR:-target}/release/quarry"
 work="$(mktemp -d)"
 server_pid=""
 cleanup() {
@@ -49,6 +53,13 @@ local goals = {
   '{"goal": "ms : List Movement\\n⊢ receivedFast ms = received ms", "explain": true}',
   '{"goal": "c : Nat\\n⊢ replay q (audit c :: ms) = replay c ms", "limit": 50}',
 }
+local bodies = os.getenv("QUARRY_LOAD_BODIES")
+if bodies and bodies ~= "" then
+  goals = {}
+  for line in io.lines(bodies) do
+    if line ~= "" then goals[#goals + 1] = line end
+  end
+end
 local i = 0
 request = function()
   i = i + 1
@@ -60,7 +71,9 @@ rss() { awk -v k="$1:" '$1 == k { print $2 " " $3 }' "/proc/$server_pid/status";
 echo "== server $url, $(grep -o "index [^,]*" "$work/out")"
 echo "== memory after loading: VmRSS $(rss VmRSS)"
 # Warm up (page cache, allocator), then measure.
-wrk -t2 -c16 -d2s -s "$work/post.lua" "$url/v1/rank" >/dev/null
-echo "== wrk -t2 -c16 -d$duration --latency POST /v1/rank"
-wrk -t2 -c16 -d"$duration" --latency -s "$work/post.lua" "$url/v1/rank"
+export QUARRY_LOAD_BODIES="$bodies"
+[ -z "$bodies" ] || echo "== bodies: $(wc -l <"$bodies") lines of $bodies"
+wrk -t2 -c"$connections" -d2s -s "$work/post.lua" "$url/v1/rank" >/dev/null
+echo "== wrk -t2 -c$connections -d$duration --latency POST /v1/rank"
+wrk -t2 -c"$connections" -d"$duration" --latency -s "$work/post.lua" "$url/v1/rank"
 echo "== memory after the run: VmRSS $(rss VmRSS), peak VmHWM $(rss VmHWM)"

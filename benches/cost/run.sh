@@ -12,9 +12,10 @@ if [ ${#sizes[@]} -eq 0 ]; then sizes=(10k 100k 300k 1M); fi
 cargo build --release --quiet
 cargo bench --bench cost --no-run --quiet
 mkdir -p target/cost
-# Measure a copy: another build of target/release/quarry during a long run must not change
-# what is measured.
-cp target/release/quarry target/cost/quarry-measured
+# Measure a copy: another build of the release binary during a long run must not change
+# what is measured. (The results always go to target/cost; the build follows
+# CARGO_TARGET_DIR when it is set.)
+cp "${CARGO_TARGET_DIR:-target}/release/quarry" target/cost/quarry-measured
 export QUARRY_BIN="$PWD/target/cost/quarry-measured"
 for size in "${sizes[@]}"; do
   cargo bench --bench cost --quiet -- measure "$size"
