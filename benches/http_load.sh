@@ -8,7 +8,8 @@
 # `wrk`: apt-get install wrk) for DURATION (default 20s) with 16 connections on 2 threads,
 # each request one of a few goals of the demo library, or, with BODIES, one line after another
 # of that file (one JSON request body per line: real goals of the index's library).
-# CONNECTIONS (default 16) sets wrk's concurrent connections. Prints wrk's latency distribution
+# CONNECTIONS (default 16) sets wrk's concurrent connections. QUARRY_LOAD_NO_BUILD=1 skips the
+# `cargo build --release` (for a binary built elsewhere: CARGO_TARGET_DIR picks it). Prints wrk's latency distribution
 # (median, p99) and requests/s, and the server's resident memory (VmRSS) after loading and
 # its peak (VmHWM) after the run. wrk reports any non-2xx answer in its summary. Traffic goes to 127.0.0.1 only, and the run stops by itself.
 set -euo pipefail
@@ -19,7 +20,7 @@ bodies="${3:-}"
 connections="${4:-16}"
 command -v wrk >/dev/null || { echo "wrk is not installed: apt-get install wrk" >&2; exit 1; }
 
-cargo build --release --quiet
+[ -n "${QUARRY_LOAD_NO_BUILD:-}" ] || cargo build --release --quiet
 bin="${CARGO_TARGET_DIR:-target}/release/quarry"
 work="$(mktemp -d)"
 server_pid=""
