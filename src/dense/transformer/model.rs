@@ -186,7 +186,10 @@ fn check_config(config: &BertConfig, path: &Path) -> Result<(), TransformerError
     if let Some((field, _)) = positive.iter().find(|(_, v)| *v == 0) {
         return Err(bad(format!("`{field}` is 0")));
     }
-    if config.hidden_size % config.num_attention_heads != 0 {
+    if !config
+        .hidden_size
+        .is_multiple_of(config.num_attention_heads)
+    {
         return Err(bad(format!(
             "`hidden_size` {} is not a multiple of `num_attention_heads` {}",
             config.hidden_size, config.num_attention_heads
