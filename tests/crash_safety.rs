@@ -136,12 +136,7 @@ fn a_build_killed_anywhere_leaves_the_previous_index_whole_and_served() {
     // the killed builds' staging folders (their locks died with them).
     build(&lib, &index);
     let last = assert_whole(&index);
-    let leftovers: Vec<String> = std::fs::read_dir(&index)
-        .unwrap()
-        .flatten()
-        .map(|e| e.file_name().to_string_lossy().into_owned())
-        .filter(|n| n.starts_with(".build-"))
-        .collect();
+    let leftovers = staging_folders(&index);
     assert!(
         leftovers.is_empty(),
         "killed builds' staging left behind: {leftovers:?}"
@@ -154,6 +149,16 @@ fn a_build_killed_anywhere_leaves_the_previous_index_whole_and_served() {
     );
     let o = quarry(&["inspect", index.to_str().unwrap(), "--verify"]);
     assert!(o.status.success(), "{}", text(&o.stderr));
+}
+
+/// The `.build-*` staging folders left in an index folder.
+fn staging_folders(index: &Path) -> Vec<String> {
+    std::fs::read_dir(index)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(".build-"))
+        .collect()
 }
 
 /// Runs `quarry serve INDEX` on a loopback port and expects it to refuse the index and exit;
@@ -420,12 +425,7 @@ fn a_full_disk_fails_the_build_clearly_and_keeps_the_old_index() {
     for (path, bytes) in &old_files {
         assert_eq!(&std::fs::read(path).unwrap(), bytes, "{}", path.display());
     }
-    let leftovers: Vec<String> = std::fs::read_dir(&index)
-        .unwrap()
-        .flatten()
-        .map(|e| e.file_name().to_string_lossy().into_owned())
-        .filter(|n| n.starts_with(".build-"))
-        .collect();
+    let leftovers = staging_folders(&index);
     assert!(leftovers.is_empty(), "staging left behind: {leftovers:?}");
 
     // With room again the same build succeeds.
