@@ -196,16 +196,7 @@ fn slow_client(addr: &str, head_now: &[u8], trickle: &[u8]) -> SlowOutcome {
 }
 
 fn answered(raw: &[u8], after: Duration) -> SlowOutcome {
-    let text = String::from_utf8_lossy(raw).to_string();
-    let status = text
-        .split(' ')
-        .nth(1)
-        .and_then(|s| s.parse().ok())
-        .unwrap_or(0);
-    let body = text
-        .split_once("\r\n\r\n")
-        .map(|(_, b)| b.to_string())
-        .unwrap_or_default();
+    let (status, body) = status_and_body(raw);
     SlowOutcome::Answered(status, body, after)
 }
 

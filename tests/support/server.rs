@@ -408,7 +408,12 @@ pub fn read_response(s: &mut TcpStream) -> (u16, String) {
             Err(e) => panic!("reading the response: {e}"),
         }
     }
-    let text = String::from_utf8_lossy(&raw).to_string();
+    status_and_body(&raw)
+}
+
+/// The status code (0 when there is none) and the body of raw HTTP/1.1 response bytes.
+pub fn status_and_body(raw: &[u8]) -> (u16, String) {
+    let text = String::from_utf8_lossy(raw).to_string();
     let status = text
         .split(' ')
         .nth(1)
