@@ -506,30 +506,57 @@ impl DensePart {
     }
 
     /// The `n` declarations nearest to `goal` (already encoded) among those `allowed`
-    /// admits, best first: the search goes deeper (doubling) until it has `n` allowed hits
-    /// or has seen every vector.
+    /// admits, best first (see [`DensePart::search_allowed_many`]).
     pub fn search_allowed(
         &self,
         goal: &[f32],
         allowed: &PremiseFilter,
         n: usize,
     ) -> Vec<(DeclId, f32)> {
+        self.search_allowed_many(goal, &[(allowed, n)])
+            .pop()
+            .unwrap_or_default()
+    }
+
+    /// For each `(filter, n)` of `wanted`, the `n` declarations nearest to `goal` among
+    /// those the filter admits, best first, from one vector search shared by all.
+    ///
+    /// The first search fetches enough that, at each filter's share of the vectors, it
+    /// should hold `n` admitted hits with a margin (a filter admitting half the library
+    /// needs about twice as many); when it does not, the search goes deeper (four times)
+    /// until every list is full or every vector has been seen.
+    pub fn search_allowed_many(
+        &self,
+        goal: &[f32],
+        wanted: &[(&PremiseFilter, usize)],
+    ) -> Vec<Vec<(DeclId, f32)>> {
         let total = self.vectors.vectors().len();
-        if n == 0 || total == 0 || goal.iter().all(|x| *x == 0.0) {
-            return Vec::new();
+        let mut out: Vec<Vec<(DeclId, f32)>> = vec![Vec::new(); wanted.len()];
+        if total == 0 || goal.iter().all(|x| *x == 0.0) || wanted.iter().all(|w| w.1 == 0) {
+            return out;
         }
-        let mut depth = (n * 4).min(total);
+        let first_fetch = |(filter, n): &(&PremiseFilter, usize)| -> usize {
+            if *n == 0 {
+                return 0;
+            }
+            let share = filter.count().max(1) as f64 / total as f64;
+            ((*n as f64 / share) * 1.25).ceil() as usize + 8
+        };
+        let mut depth = wanted.iter().map(first_fetch).max().unwrap_or(0).min(total);
         loop {
-            let hits: Vec<(DeclId, f32)> = self
-                .vectors
-                .search(goal, depth)
-                .into_iter()
-                .map(|(i, s)| (DeclId(i), s))
-                .filter(|(d, _)| allowed.contains(*d))
-                .take(n)
-                .collect();
-            if hits.len() >= n || depth >= total {
-                return hits;
+            let hits = self.vectors.search(goal, depth);
+            let mut full = true;
+            for (list, (filter, n)) in out.iter_mut().zip(wanted) {
+                *list = hits
+                    .iter()
+                    .map(|&(i, s)| (DeclId(i), s))
+                    .filter(|(d, _)| filter.contains(*d))
+                    .take(*n)
+                    .collect();
+                full &= list.len() >= *n;
+            }
+            if full || depth >= total {
+                return out;
             }
             depth = (depth * 4).min(total);
         }
@@ -588,5 +615,18 @@ mod tests {
             "a search deeper than the first fetch finds it"
         );
         assert_eq!(hits[0].0, DeclId(4));
+        // Two filters from one search give what two searches give.
+        let both = part.search_allowed_many(&[1.0, 0.0], &[(&allowed, 2), (&only_last, 1)]);
+        assert_eq!(
+            both,
+            vec![
+                part.search_allowed(&[1.0, 0.0], &allowed, 2),
+                part.search_allowed(&[1.0, 0.0], &only_last, 1)
+            ]
+        );
+        assert!(part
+            .search_allowed_many(&[1.0, 0.0], &[(&allowed, 0)])
+            .iter()
+            .all(Vec::is_empty));
     }
 }

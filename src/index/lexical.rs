@@ -12,11 +12,10 @@
 //! formula against reference implementations), `kind` (raw), and `id` (the declaration id,
 //! a fast field).
 
+use std::collections::BinaryHeap;
 use std::path::Path;
 use std::sync::Arc;
 
-use tantivy::collector::{FilterCollector, TopDocs};
-use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
 use tantivy::schema::{
     Field, IndexRecordOption, Schema, TextFieldIndexing, TextOptions, Value, FAST, STORED, STRING,
 };
@@ -316,10 +315,42 @@ impl LexicalIndex {
         &self,
         terms: &[QueryTerm],
         boosts: &FieldBoosts,
-        filter: Option<Arc<PremiseFilter>>,
+        filter: Option<&PremiseFilter>,
         limit: usize,
     ) -> Result<Vec<(DeclId, f32)>, LexicalError> {
-        let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
+        if limit == 0 {
+            return Ok(Vec::new());
+        }
+        Ok(self.scores(terms, boosts)?.top(filter, limit))
+    }
+
+    /// The BM25 score of every declaration that matches at least one of `terms` in a field
+    /// with a non-zero boost: the sum over fields and terms of boost · term weight · BM25.
+    ///
+    /// Term at a time: each term's posting list is read once, block by block, from
+    /// tantivy's inverted index, and its contribution added to one accumulator per
+    /// document. A ranking needs the same scores under two filters (the premises allowed,
+    /// and the theorems allowed to vote), so they are computed once and [`LexicalScores::top`]
+    /// picks each list. Scores are tantivy's own BM25 (k1 = 1.2, b = 0.75, tantivy's idf
+    /// from the searcher's document frequencies, its fieldnorm coding of document length);
+    /// a unit test checks them against tantivy's `TermQuery` scorer.
+    pub fn scores(
+        &self,
+        terms: &[QueryTerm],
+        boosts: &FieldBoosts,
+    ) -> Result<LexicalScores, LexicalError> {
+        let err = |source| LexicalError::Tantivy {
+            path: self.path.clone(),
+            source,
+        };
+        let io_err = |e: std::io::Error| LexicalError::Tantivy {
+            path: self.path.clone(),
+            source: e.into(),
+        };
+        let searcher = self.reader.searcher();
+        let total_docs = searcher.num_docs();
+        let mut hits = Vec::new();
+        let mut fields: Vec<FieldQuery> = Vec::new();
         for (field, boost) in [
             (LexicalField::Name, boosts.name),
             (LexicalField::Conclusion, boosts.conclusion),
@@ -330,52 +361,90 @@ impl LexicalIndex {
                 continue;
             }
             let f = self.field(field);
+            let mut weighted = Vec::new();
             for t in terms {
                 if t.weight <= 0.0 || t.text.is_empty() {
                     continue;
                 }
-                let q = TermQuery::new(
-                    Term::from_field_text(f, &t.text),
-                    IndexRecordOption::WithFreqs,
-                );
-                clauses.push((
-                    Occur::Should,
-                    Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
-                ));
+                let term = Term::from_field_text(f, &t.text);
+                let df = searcher.doc_freq(&term).map_err(err)?;
+                if df == 0 {
+                    continue;
+                }
+                let w = boost * t.weight * (1.0 + BM25_K1) * bm25_idf(df, total_docs);
+                weighted.push((term, w));
+            }
+            if weighted.is_empty() {
+                continue;
+            }
+            let mut tokens = 0u64;
+            for seg in searcher.segment_readers() {
+                tokens += seg.inverted_index(f).map_err(err)?.total_num_tokens();
+            }
+            let average = tokens as f32 / total_docs.max(1) as f32;
+            fields.push((f, weighted, length_norms(average)));
+        }
+        if fields.is_empty() {
+            return Ok(LexicalScores { hits });
+        }
+        for (seg_ord, seg) in searcher.segment_readers().iter().enumerate() {
+            let Some(decls) = self.doc_to_decl.get(seg_ord) else {
+                continue;
+            };
+            let max_doc = seg.max_doc() as usize;
+            let mut acc = vec![0f32; max_doc];
+            // Which documents have a score: a bitset, set without a branch, so the inner
+            // loop does not mispredict on every new document.
+            let mut touched = vec![0u64; max_doc.div_ceil(64)];
+            for (f, weighted, norms) in &fields {
+                let inverted = seg.inverted_index(*f).map_err(err)?;
+                let lengths = seg.get_fieldnorms_reader(*f).map_err(err)?;
+                for (term, w) in weighted {
+                    let Some(mut block) = inverted
+                        .read_block_postings(term, IndexRecordOption::WithFreqs)
+                        .map_err(io_err)?
+                    else {
+                        continue;
+                    };
+                    loop {
+                        let docs = block.docs();
+                        if docs.is_empty() {
+                            break;
+                        }
+                        for (&doc, &tf) in docs.iter().zip(block.freqs()) {
+                            let (Some(a), Some(bits)) = (
+                                acc.get_mut(doc as usize),
+                                touched.get_mut(doc as usize / 64),
+                            ) else {
+                                continue;
+                            };
+                            let code = lengths.fieldnorm_id(doc) as usize;
+                            let tf = tf as f32;
+                            *a += w * tf / (tf + norms[code]);
+                            *bits |= 1 << (doc % 64);
+                        }
+                        block.advance();
+                    }
+                }
+            }
+            let alive = seg.alive_bitset();
+            for (word_index, &word) in touched.iter().enumerate() {
+                let mut word = word;
+                while word != 0 {
+                    let doc = (word_index * 64 + word.trailing_zeros() as usize) as u32;
+                    word &= word - 1;
+                    if alive.is_some_and(|a| !a.is_alive(doc)) {
+                        continue;
+                    }
+                    if let (Some(&id), Some(&score)) =
+                        (decls.get(doc as usize), acc.get(doc as usize))
+                    {
+                        hits.push((DeclId(id), score));
+                    }
+                }
             }
         }
-        if clauses.is_empty() || limit == 0 {
-            return Ok(Vec::new());
-        }
-        let query = BooleanQuery::new(clauses);
-        let searcher = self.reader.searcher();
-        let err = |source| LexicalError::Tantivy {
-            path: self.path.clone(),
-            source,
-        };
-        let hits = match filter {
-            Some(filter) => {
-                let collector = FilterCollector::new(
-                    "id".to_string(),
-                    move |id: u64| filter.contains(DeclId(id as u32)),
-                    TopDocs::with_limit(limit).order_by_score(),
-                );
-                searcher.search(&query, &collector).map_err(err)?
-            }
-            None => searcher
-                .search(&query, &TopDocs::with_limit(limit).order_by_score())
-                .map_err(err)?,
-        };
-        Ok(hits
-            .into_iter()
-            .filter_map(|(score, addr)| {
-                let id = *self
-                    .doc_to_decl
-                    .get(addr.segment_ord as usize)?
-                    .get(addr.doc_id as usize)?;
-                Some((DeclId(id), score))
-            })
-            .collect())
+        Ok(LexicalScores { hits })
     }
 
     /// The at most `keep` terms of `terms` that weigh most in BM25's sum: each term's
@@ -441,6 +510,114 @@ impl LexicalIndex {
                 message: "first document has no stored id".into(),
             }),
         }
+    }
+}
+
+/// BM25's k1 and b, the values tantivy (and Lucene) use: the common middle of the ranges
+/// Robertson and Zaragoza recommend (k1 in 1.2..2.0, b = 0.75).
+const BM25_K1: f32 = 1.2;
+const BM25_B: f32 = 0.75;
+
+/// BM25's idf in its non-negative form, ln(1 + (N − n + 0.5) / (n + 0.5)), as tantivy
+/// computes it.
+fn bm25_idf(doc_freq: u64, docs: u64) -> f32 {
+    let n = doc_freq.min(docs);
+    let x = ((docs - n) as f32 + 0.5) / (n as f32 + 0.5);
+    (1.0 + x).ln()
+}
+
+/// k1 · (1 − b + b · dl / avgdl) for each of tantivy's 256 fieldnorm codes of dl.
+fn length_norms(average: f32) -> [f32; 256] {
+    let mut out = [0f32; 256];
+    let average = if average > 0.0 { average } else { 1.0 };
+    for (code, k) in out.iter_mut().enumerate() {
+        let dl = tantivy::fieldnorm::FieldNormReader::id_to_fieldnorm(code as u8) as f32;
+        *k = BM25_K1 * (1.0 - BM25_B + BM25_B * dl / average);
+    }
+    out
+}
+
+/// One field's part of a query: the field, its terms with their weights (boost · term
+/// weight · (k1 + 1) · idf), and the length norms of its fieldnorm codes.
+type FieldQuery = (Field, Vec<(Term, f32)>, [f32; 256]);
+
+/// Every matching declaration's BM25 score for one query, in no particular order.
+#[derive(Clone, Debug, Default)]
+pub struct LexicalScores {
+    hits: Vec<(DeclId, f32)>,
+}
+
+impl LexicalScores {
+    /// How many declarations matched.
+    pub fn len(&self) -> usize {
+        self.hits.len()
+    }
+
+    /// Whether nothing matched.
+    pub fn is_empty(&self) -> bool {
+        self.hits.is_empty()
+    }
+
+    /// The best `limit` among those `filter` allows (all when `None`), best first; equal
+    /// scores go to the smaller declaration id, so the order is the same on every run.
+    ///
+    /// One pass with a heap of the `limit` best so far: a ranking picks two short lists
+    /// from thousands of matches, and copying the matches to sort them cost more than
+    /// the scoring.
+    pub fn top(&self, filter: Option<&PremiseFilter>, limit: usize) -> Vec<(DeclId, f32)> {
+        if limit == 0 {
+            return Vec::new();
+        }
+        let mut heap: BinaryHeap<Ranked> = BinaryHeap::with_capacity(limit + 1);
+        // Once the heap is full, the score of its worst entry: most matches fall below it
+        // and are passed over on one float comparison.
+        let mut bar = f32::NEG_INFINITY;
+        for &(id, score) in &self.hits {
+            if score < bar || filter.is_some_and(|f| !f.contains(id)) {
+                continue;
+            }
+            let hit = Ranked(id, score);
+            if heap.len() < limit {
+                heap.push(hit);
+            } else if heap.peek().is_some_and(|worst| hit < *worst) {
+                heap.pop();
+                heap.push(hit);
+            } else {
+                continue;
+            }
+            if heap.len() == limit {
+                bar = heap.peek().map_or(bar, |worst| worst.1);
+            }
+        }
+        heap.into_sorted_vec()
+            .into_iter()
+            .map(|Ranked(id, score)| (id, score))
+            .collect()
+    }
+}
+
+/// A scored declaration ordered best first: `a < b` when `a` ranks above `b` (higher
+/// score, then smaller id), so a max-heap keeps the worst of its entries on top.
+#[derive(Clone, Copy, Debug)]
+struct Ranked(DeclId, f32);
+
+impl PartialEq for Ranked {
+    fn eq(&self, other: &Self) -> bool {
+        self.cmp(other) == std::cmp::Ordering::Equal
+    }
+}
+
+impl Eq for Ranked {}
+
+impl PartialOrd for Ranked {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+
+impl Ord for Ranked {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        other.1.total_cmp(&self.1).then(self.0.cmp(&other.0))
     }
 }
 
@@ -561,6 +738,95 @@ mod tests {
         assert!((slot[1].1 - 0.453147).abs() < 1e-4);
     }
 
+    /// The term-at-a-time scores are tantivy's own: the same query as a tantivy
+    /// `BooleanQuery` of boosted `TermQuery`s over every field (tantivy 0.27's BM25 scorer,
+    /// the reference here) gives every document the same score, to float rounding.
+    #[test]
+    fn scores_match_tantivys_own_scorer() {
+        use tantivy::collector::TopDocs;
+        use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
+        let lib = library(&[
+            ("slot_push", "forall r, push r slot = slot push r"),
+            ("wrap", "wrap wrap wrap slot"),
+            (
+                "drain",
+                "forall q : queue , drain ( push q slot ) = drain q",
+            ),
+            ("pop", "pop"),
+            (
+                "long",
+                "slot slot push pop wrap drain queue ring buffer head tail size",
+            ),
+        ]);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), 5).unwrap();
+        let boosts = FieldBoosts {
+            name: 1.5,
+            conclusion: 0.5,
+            hypotheses: 0.25,
+            text: 2.0,
+        };
+        let terms = [
+            QueryTerm {
+                text: "slot".into(),
+                weight: 1.0,
+            },
+            QueryTerm {
+                text: "push".into(),
+                weight: 0.5,
+            },
+            term("wrap"),
+            term("absent"),
+        ];
+        let mut ours = idx.scores(&terms, &boosts).unwrap().top(None, 10);
+        ours.sort_by_key(|h| h.0);
+        let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
+        for (field, boost) in [
+            (idx.fields.name, boosts.name),
+            (idx.fields.conclusion, boosts.conclusion),
+            (idx.fields.hypotheses, boosts.hypotheses),
+            (idx.fields.text, boosts.text),
+        ] {
+            for t in &terms {
+                let q = TermQuery::new(
+                    Term::from_field_text(field, &t.text),
+                    IndexRecordOption::WithFreqs,
+                );
+                clauses.push((
+                    Occur::Should,
+                    Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
+                ));
+            }
+        }
+        let searcher = idx.reader.searcher();
+        let mut theirs: Vec<(DeclId, f32)> = searcher
+            .search(
+                &BooleanQuery::new(clauses),
+                &TopDocs::with_limit(10).order_by_score(),
+            )
+            .unwrap()
+            .into_iter()
+            .map(|(score, addr)| (DeclId(idx.doc_to_decl[0][addr.doc_id as usize]), score))
+            .collect();
+        theirs.sort_by_key(|h| h.0);
+        assert_eq!(ours.len(), 4, "every document but `pop` matches");
+        assert_eq!(
+            ours.iter().map(|h| h.0).collect::<Vec<_>>(),
+            theirs.iter().map(|h| h.0).collect::<Vec<_>>()
+        );
+        for (a, b) in ours.iter().zip(&theirs) {
+            assert!(
+                (a.1 - b.1).abs() <= 1e-5 * b.1.abs().max(1.0),
+                "{:?}: ours {} tantivy {}",
+                a.0,
+                a.1,
+                b.1
+            );
+        }
+    }
+
     #[test]
     fn the_filter_limits_the_answers_and_empty_queries_return_nothing() {
         let lib = library(&[("d1", "push slot"), ("d2", "push"), ("d3", "pop")]);
@@ -571,12 +837,7 @@ mod tests {
         let mut only_d2 = PremiseFilter::none(3);
         only_d2.insert(DeclId(1));
         let hits = idx
-            .search(
-                &[term("push")],
-                &FieldBoosts::default(),
-                Some(Arc::new(only_d2)),
-                10,
-            )
+            .search(&[term("push")], &FieldBoosts::default(), Some(&only_d2), 10)
             .unwrap();
         assert_eq!(
             hits.iter().map(|h| h.0).collect::<Vec<_>>(),

@@ -223,25 +223,59 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
         let tokens: Vec<&str> = terms.iter().map(|t| t.text.as_str()).collect();
         d.encoder.encode_goal(&tokens)
     });
+    // Each search runs once: the lexical scores and the dense hits serve both the premise
+    // lists and the neighbour theorems, under their two filters.
+    let wants = |s: Signal| selected.contains(&s);
+    let neighbours_wanted = wants(Signal::Neighbours);
+    let lexical_scores = if wants(Signal::Lexical) || neighbours_wanted {
+        Some(index.lexical.scores(&terms, &index.lexical_boosts)?)
+    } else {
+        None
+    };
+    let voters = neighbours_wanted.then(|| index.votable_filter.intersection(&filter));
+    let k_near = index.vote_params.neighbours;
+    let mut dense_hits: [Vec<(DeclId, f32)>; 2] = [Vec::new(), Vec::new()];
+    if let (Some(d), Some(v)) = (&index.dense, &goal_vector) {
+        let mut wanted: Vec<(&PremiseFilter, usize)> = Vec::new();
+        if wants(Signal::Dense) {
+            wanted.push((&*filter, depth));
+        }
+        if let Some(voters) = &voters {
+            wanted.push((voters, k_near));
+        }
+        let found = d.search_allowed_many(v, &wanted);
+        let mut found = found.into_iter();
+        if wants(Signal::Dense) {
+            dense_hits[0] = found.next().unwrap_or_default();
+        }
+        if voters.is_some() {
+            dense_hits[1] = found.next().unwrap_or_default();
+        }
+    }
+    let [dense_premises, dense_voters] = dense_hits;
+    let mut dense_premises = Some(dense_premises);
     let mut lists: Vec<(Signal, SignalList)> = Vec::new();
     for &signal in &selected {
         let list: SignalList = match signal {
-            Signal::Lexical => index
-                .lexical
-                .search(&terms, &index.lexical_boosts, Some(filter.clone()), depth)?
+            Signal::Lexical => lexical_scores
+                .as_ref()
+                .map(|s| s.top(Some(&*filter), depth))
+                .unwrap_or_default()
                 .into_iter()
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
-            Signal::Dense => match (&index.dense, &goal_vector) {
-                (Some(d), Some(v)) => d
-                    .search_allowed(v, &filter, depth)
-                    .into_iter()
-                    .map(|(id, s)| (id, s, Vec::new()))
-                    .collect(),
-                _ => Vec::new(),
-            },
+            Signal::Dense => dense_premises
+                .take()
+                .unwrap_or_default()
+                .into_iter()
+                .map(|(id, s)| (id, s, Vec::new()))
+                .collect(),
             Signal::Neighbours => {
-                let near = nearest_theorems(index, &terms, goal_vector.as_deref(), &filter)?;
+                let lexical_near = match (&lexical_scores, &voters) {
+                    (Some(s), Some(v)) => s.top(Some(v), k_near),
+                    _ => Vec::new(),
+                };
+                let near = nearest_theorems(lexical_near, &dense_voters);
                 neighbour_votes(
                     &library.graph,
                     &index.usage,
@@ -316,30 +350,14 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     })
 }
 
-/// The votable theorems nearest the goal among those `allowed` admits, with similarities
-/// in 0..=1: BM25's top (scores over the best one) and the dense signal's top (cosine).
-/// A theorem found by both is listed twice and so votes twice.
-fn nearest_theorems(
-    index: &OpenIndex,
-    terms: &[QueryTerm],
-    goal_vector: Option<&[f32]>,
-    allowed: &PremiseFilter,
-) -> Result<Vec<(DeclId, f32)>, RankError> {
-    let k = index.vote_params.neighbours;
-    let voters = Arc::new(index.votable_filter.intersection(allowed));
-    let lexical = index
-        .lexical
-        .search(terms, &index.lexical_boosts, Some(voters.clone()), k)?;
+/// The votable theorems nearest the goal, with similarities in 0..=1, from BM25's top
+/// (scores over the best one) and the dense signal's top (cosine). A theorem found by both
+/// is listed twice and so votes twice.
+fn nearest_theorems(lexical: Vec<(DeclId, f32)>, dense: &[(DeclId, f32)]) -> Vec<(DeclId, f32)> {
     let top = lexical.first().map_or(1.0, |h| h.1.max(f32::MIN_POSITIVE));
     let mut near: Vec<(DeclId, f32)> = lexical.into_iter().map(|(id, s)| (id, s / top)).collect();
-    if let (Some(d), Some(v)) = (&index.dense, goal_vector) {
-        near.extend(
-            d.search_allowed(v, &voters, k)
-                .into_iter()
-                .map(|(id, s)| (id, s.max(0.0))),
-        );
-    }
-    Ok(near)
+    near.extend(dense.iter().map(|&(id, s)| (id, s.max(0.0))));
+    near
 }
 
 /// The query tokens that occur in a premise's name or statement, in query order.
