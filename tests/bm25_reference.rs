@@ -12,7 +12,7 @@ mod support;
 
 use std::sync::Arc;
 
-use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::extract::build_library;
 use quarry::index::lexical::{self, FieldBoosts, LexicalIndex};
 use quarry::index::{library_tokenizer, tokenize_fn};
 use quarry::library::DeclKind;
@@ -49,16 +49,8 @@ fn bm25_agrees_with_bm25s_on_the_coq_standard_library() {
     let Some(python) = support::python::venv_with(&[BM25S, "numpy"]) else {
         return;
     };
-    let library = build_library(&BuildOptions {
-        roots: vec![theories.clone()],
-        coq_prefixes: vec![CoqPrefix {
-            logical: "Coq".into(),
-            dir: theories,
-        }],
-        threads: None,
-        progress: false,
-    })
-    .expect("the standard library builds");
+    let library = build_library(&support::debian::stdlib_options(&theories))
+        .expect("the standard library builds");
     assert!(
         library.declarations.len() > 10_000,
         "too few declarations extracted"

@@ -22,7 +22,7 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
-use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::extract::{build_library, BuildOptions};
 use quarry::library::{DeclKind, Library, Visibility};
 use support::debian::{coq_stdlib, coqc};
 
@@ -57,15 +57,7 @@ fn stdlib() -> Option<&'static (PathBuf, Library)> {
     BUILT
         .get_or_init(|| {
             let theories = coq_stdlib()?;
-            let opts = BuildOptions {
-                roots: vec![theories.clone()],
-                coq_prefixes: vec![CoqPrefix {
-                    logical: "Coq".into(),
-                    dir: theories.clone(),
-                }],
-                threads: None,
-                progress: false,
-            };
+            let opts = support::debian::stdlib_options(&theories);
             match build_library(&opts) {
                 Ok(l) => Some((theories, l)),
                 Err(e) => panic!(

@@ -15,10 +15,10 @@ use quarry::dense::{
     recall_against_exact, token_refs, train, Encoder, HnswIndex, HnswParams, TrainConfig,
     TrainingData, TrainingPair, VectorSet,
 };
-use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::extract::build_library;
 use quarry::index::dense::{build_encoder_settings, goal_tokens, premise_tokens};
 use quarry::index::library_tokenizer;
-use support::debian::coq_stdlib;
+use support::debian::{coq_stdlib, stdlib_options};
 
 /// recall@10 ≥ 0.98 at the default parameters (M 16, ef_construction 100, ef_search 200):
 /// the target the dense issue sets, in line with what the HNSW paper (Malkov & Yashunin,
@@ -28,16 +28,8 @@ fn hnsw_finds_what_the_exact_scan_finds_on_the_stdlib_vectors() {
     let Some(theories) = coq_stdlib() else {
         return;
     };
-    let library = build_library(&BuildOptions {
-        roots: vec![theories.clone()],
-        coq_prefixes: vec![CoqPrefix {
-            logical: "Coq".into(),
-            dir: theories.clone(),
-        }],
-        threads: None,
-        progress: false,
-    })
-    .unwrap_or_else(|e| panic!("the Coq stdlib at `{}`: {e}", theories.display()));
+    let library = build_library(&stdlib_options(&theories))
+        .unwrap_or_else(|e| panic!("the Coq stdlib at `{}`: {e}", theories.display()));
     let tokenizer = library_tokenizer(&library);
 
     let mut data = TrainingData {

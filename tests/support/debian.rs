@@ -100,6 +100,20 @@ pub fn coq_stdlib() -> Option<PathBuf> {
     }
 }
 
+/// The options that read the standard library at `theories` as its users load it: the
+/// logical prefix `Coq` bound to the folder (coqc's `-R theories Coq`).
+pub fn stdlib_options(theories: &Path) -> quarry::extract::BuildOptions {
+    quarry::extract::BuildOptions {
+        roots: vec![theories.to_path_buf()],
+        coq_prefixes: vec![quarry::extract::CoqPrefix {
+            logical: "Coq".into(),
+            dir: theories.to_path_buf(),
+        }],
+        threads: None,
+        progress: false,
+    }
+}
+
 /// The `coqc` compiler, installing Debian's `coq` under `CI=true`.
 pub fn coqc() -> Option<PathBuf> {
     static FOUND: OnceLock<Result<PathBuf, String>> = OnceLock::new();
