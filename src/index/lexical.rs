@@ -548,16 +548,6 @@ pub struct LexicalScores {
 }
 
 impl LexicalScores {
-    /// How many declarations matched.
-    pub fn len(&self) -> usize {
-        self.hits.len()
-    }
-
-    /// Whether nothing matched.
-    pub fn is_empty(&self) -> bool {
-        self.hits.is_empty()
-    }
-
     /// The best `limit` among those `filter` allows (all when `None`), best first; equal
     /// scores go to the smaller declaration id, so the order is the same on every run.
     ///

@@ -22,7 +22,7 @@ use crate::index::lexical::LexicalError;
 use crate::index::OpenIndex;
 use crate::library::{DeclId, DeclKind};
 use crate::query::{parse_goal, GoalError, GoalSelection, GoalState, QueryTerm};
-use accessible::{accessible_premises, PremiseFilter, QueryPlace};
+use accessible::{accessible_premises, QueryPlace};
 use fusion::reciprocal_rank_fusion;
 use neighbours::neighbour_votes;
 
@@ -234,26 +234,27 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     };
     let voters = neighbours_wanted.then(|| index.votable_filter.intersection(&filter));
     let k_near = index.vote_params.neighbours;
-    let mut dense_hits: [Vec<(DeclId, f32)>; 2] = [Vec::new(), Vec::new()];
-    if let (Some(d), Some(v)) = (&index.dense, &goal_vector) {
-        let mut wanted: Vec<(&PremiseFilter, usize)> = Vec::new();
-        if wants(Signal::Dense) {
-            wanted.push((&*filter, depth));
+    // One dense search for both lists; a list nobody wants is asked for 0 hits.
+    let [mut dense_premises, dense_voters] = match (&index.dense, &goal_vector) {
+        (Some(d), Some(v)) => {
+            let premises_n = if wants(Signal::Dense) { depth } else { 0 };
+            let voters_n = if voters.is_some() { k_near } else { 0 };
+            let mut found = d
+                .search_allowed_many(
+                    v,
+                    &[
+                        (&*filter, premises_n),
+                        (voters.as_ref().unwrap_or(&filter), voters_n),
+                    ],
+                )
+                .into_iter();
+            [
+                found.next().unwrap_or_default(),
+                found.next().unwrap_or_default(),
+            ]
         }
-        if let Some(voters) = &voters {
-            wanted.push((voters, k_near));
-        }
-        let found = d.search_allowed_many(v, &wanted);
-        let mut found = found.into_iter();
-        if wants(Signal::Dense) {
-            dense_hits[0] = found.next().unwrap_or_default();
-        }
-        if voters.is_some() {
-            dense_hits[1] = found.next().unwrap_or_default();
-        }
-    }
-    let [dense_premises, dense_voters] = dense_hits;
-    let mut dense_premises = Some(dense_premises);
+        _ => [Vec::new(), Vec::new()],
+    };
     let mut lists: Vec<(Signal, SignalList)> = Vec::new();
     for &signal in &selected {
         let list: SignalList = match signal {
@@ -264,9 +265,7 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
                 .into_iter()
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
-            Signal::Dense => dense_premises
-                .take()
-                .unwrap_or_default()
+            Signal::Dense => std::mem::take(&mut dense_premises)
                 .into_iter()
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
