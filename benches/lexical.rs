@@ -1,7 +1,7 @@
 //! The lexical path on the Coq standard library index (Debian's `libcoq-stdlib`; the demo
 //! library when it is not installed): tokenizing a goal, parsing a goal display, opening
-//! the index, ranking a typical goal (fused, and with the lexical signal alone), and refusing
-//! a 10 MB goal.
+//! the index, ranking a typical goal (fused, and with the lexical signal alone), BM25 scoring
+//! alone, and refusing a 10 MB goal.
 //! `cargo bench --bench lexical`; figures in docs/performance.md.
 
 use std::path::PathBuf;
@@ -9,10 +9,11 @@ use std::path::PathBuf;
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion};
 use quarry::eval::queries::statement_goal;
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
+use quarry::index::lexical::WantedList;
 use quarry::index::{build_index, OpenIndex};
 use quarry::library::DeclKind;
-use quarry::query::parse_goal;
-use quarry::retrieve::{rank, RankRequest, Signal};
+use quarry::query::{parse_goal, GoalSelection, QueryTerm};
+use quarry::retrieve::{rank, RankRequest, Signal, FUSION_DEPTH};
 use quarry::tokens::Tokenizer;
 
 fn options() -> (String, BuildOptions) {
@@ -110,6 +111,36 @@ fn bench_lexical(c: &mut Criterion) {
             request.signals = Some(vec![Signal::Lexical]);
             rank(&index, &request)
                 .map(|r| r.premises.len())
+                .unwrap_or(0)
+        })
+    });
+    // The lexical scoring alone, as a fused ranking asks for it: every matching declaration
+    // scored once, then the premise list 100 deep and the 40 voting theorems picked.
+    let queries: Vec<Vec<QueryTerm>> = goals
+        .iter()
+        .filter_map(|g| parse_goal(g).ok())
+        .map(|g| g.query_terms(&index.tokenizer, GoalSelection::First))
+        .collect();
+    let premises = index.default_candidates.clone();
+    let voters = index.votable_filter.intersection(&premises);
+    let wanted = [
+        WantedList {
+            filter: Some(&premises),
+            limit: FUSION_DEPTH,
+        },
+        WantedList {
+            filter: Some(&voters),
+            limit: index.vote_params.neighbours,
+        },
+    ];
+    let mut k = 0;
+    group.bench_function(format!("bm25/{name}/two-lists"), |b| {
+        b.iter(|| {
+            k = (k + 1) % queries.len();
+            index
+                .lexical
+                .top_lists(&queries[k], &index.lexical_boosts, &wanted)
+                .map(|l| l.iter().map(Vec::len).sum::<usize>())
                 .unwrap_or(0)
         })
     });

@@ -26,6 +26,9 @@ use crate::library::{DeclId, Library};
 use crate::query::QueryTerm;
 use crate::retrieve::accessible::PremiseFilter;
 
+mod scoring;
+pub use scoring::WantedList;
+
 /// The name under which quarry's tokenizer is registered with tantivy.
 pub const TOKENIZER_NAME: &str = "quarry";
 /// The folder of the lexical index inside a generation.
@@ -324,129 +327,6 @@ impl LexicalIndex {
         Ok(self.scores(terms, boosts)?.top(filter, limit))
     }
 
-    /// The BM25 score of every declaration that matches at least one of `terms` in a field
-    /// with a non-zero boost: the sum over fields and terms of boost · term weight · BM25.
-    ///
-    /// Term at a time: each term's posting list is read once, block by block, from
-    /// tantivy's inverted index, and its contribution added to one accumulator per
-    /// document. A ranking needs the same scores under two filters (the premises allowed,
-    /// and the theorems allowed to vote), so they are computed once and [`LexicalScores::top`]
-    /// picks each list. Scores are tantivy's own BM25 (k1 = 1.2, b = 0.75, tantivy's idf
-    /// from the searcher's document frequencies, its fieldnorm coding of document length);
-    /// a unit test checks them against tantivy's `TermQuery` scorer.
-    pub fn scores(
-        &self,
-        terms: &[QueryTerm],
-        boosts: &FieldBoosts,
-    ) -> Result<LexicalScores, LexicalError> {
-        let err = |source| LexicalError::Tantivy {
-            path: self.path.clone(),
-            source,
-        };
-        let io_err = |e: std::io::Error| LexicalError::Tantivy {
-            path: self.path.clone(),
-            source: e.into(),
-        };
-        let searcher = self.reader.searcher();
-        let total_docs = searcher.num_docs();
-        let mut hits = Vec::new();
-        let mut fields: Vec<FieldQuery> = Vec::new();
-        for (field, boost) in [
-            (LexicalField::Name, boosts.name),
-            (LexicalField::Conclusion, boosts.conclusion),
-            (LexicalField::Hypotheses, boosts.hypotheses),
-            (LexicalField::Text, boosts.text),
-        ] {
-            if boost <= 0.0 {
-                continue;
-            }
-            let f = self.field(field);
-            let mut weighted = Vec::new();
-            for t in terms {
-                if t.weight <= 0.0 || t.text.is_empty() {
-                    continue;
-                }
-                let term = Term::from_field_text(f, &t.text);
-                let df = searcher.doc_freq(&term).map_err(err)?;
-                if df == 0 {
-                    continue;
-                }
-                let w = boost * t.weight * (1.0 + BM25_K1) * bm25_idf(df, total_docs);
-                weighted.push((term, w));
-            }
-            if weighted.is_empty() {
-                continue;
-            }
-            let mut tokens = 0u64;
-            for seg in searcher.segment_readers() {
-                tokens += seg.inverted_index(f).map_err(err)?.total_num_tokens();
-            }
-            let average = tokens as f32 / total_docs.max(1) as f32;
-            fields.push((f, weighted, length_norms(average)));
-        }
-        if fields.is_empty() {
-            return Ok(LexicalScores { hits });
-        }
-        for (seg_ord, seg) in searcher.segment_readers().iter().enumerate() {
-            let Some(decls) = self.doc_to_decl.get(seg_ord) else {
-                continue;
-            };
-            let max_doc = seg.max_doc() as usize;
-            let mut acc = vec![0f32; max_doc];
-            // Which documents have a score: a bitset, set without a branch, so the inner
-            // loop does not mispredict on every new document.
-            let mut touched = vec![0u64; max_doc.div_ceil(64)];
-            for (f, weighted, norms) in &fields {
-                let inverted = seg.inverted_index(*f).map_err(err)?;
-                let lengths = seg.get_fieldnorms_reader(*f).map_err(err)?;
-                for (term, w) in weighted {
-                    let Some(mut block) = inverted
-                        .read_block_postings(term, IndexRecordOption::WithFreqs)
-                        .map_err(io_err)?
-                    else {
-                        continue;
-                    };
-                    loop {
-                        let docs = block.docs();
-                        if docs.is_empty() {
-                            break;
-                        }
-                        for (&doc, &tf) in docs.iter().zip(block.freqs()) {
-                            let (Some(a), Some(bits)) = (
-                                acc.get_mut(doc as usize),
-                                touched.get_mut(doc as usize / 64),
-                            ) else {
-                                continue;
-                            };
-                            let code = lengths.fieldnorm_id(doc) as usize;
-                            let tf = tf as f32;
-                            *a += w * tf / (tf + norms[code]);
-                            *bits |= 1 << (doc % 64);
-                        }
-                        block.advance();
-                    }
-                }
-            }
-            let alive = seg.alive_bitset();
-            for (word_index, &word) in touched.iter().enumerate() {
-                let mut word = word;
-                while word != 0 {
-                    let doc = (word_index * 64 + word.trailing_zeros() as usize) as u32;
-                    word &= word - 1;
-                    if alive.is_some_and(|a| !a.is_alive(doc)) {
-                        continue;
-                    }
-                    if let (Some(&id), Some(&score)) =
-                        (decls.get(doc as usize), acc.get(doc as usize))
-                    {
-                        hits.push((DeclId(id), score));
-                    }
-                }
-            }
-        }
-        Ok(LexicalScores { hits })
-    }
-
     /// The at most `keep` terms of `terms` that weigh most in BM25's sum: each term's
     /// weight times its inverse document frequency in the `text` field, idf = ln(1 + (N −
     /// df + 0.5) / (df + 0.5)) (Robertson and Spärck Jones's idf as BM25 uses it; tantivy's
@@ -512,34 +392,6 @@ impl LexicalIndex {
         }
     }
 }
-
-/// BM25's k1 and b, the values tantivy (and Lucene) use: the common middle of the ranges
-/// Robertson and Zaragoza recommend (k1 in 1.2..2.0, b = 0.75).
-const BM25_K1: f32 = 1.2;
-const BM25_B: f32 = 0.75;
-
-/// BM25's idf in its non-negative form, ln(1 + (N − n + 0.5) / (n + 0.5)), as tantivy
-/// computes it.
-fn bm25_idf(doc_freq: u64, docs: u64) -> f32 {
-    let n = doc_freq.min(docs);
-    let x = ((docs - n) as f32 + 0.5) / (n as f32 + 0.5);
-    (1.0 + x).ln()
-}
-
-/// k1 · (1 − b + b · dl / avgdl) for each of tantivy's 256 fieldnorm codes of dl.
-fn length_norms(average: f32) -> [f32; 256] {
-    let mut out = [0f32; 256];
-    let average = if average > 0.0 { average } else { 1.0 };
-    for (code, k) in out.iter_mut().enumerate() {
-        let dl = tantivy::fieldnorm::FieldNormReader::id_to_fieldnorm(code as u8) as f32;
-        *k = BM25_K1 * (1.0 - BM25_B + BM25_B * dl / average);
-    }
-    out
-}
-
-/// One field's part of a query: the field, its terms with their weights (boost · term
-/// weight · (k1 + 1) · idf), and the length norms of its fieldnorm codes.
-type FieldQuery = (Field, Vec<(Term, f32)>, [f32; 256]);
 
 /// Every matching declaration's BM25 score for one query, in no particular order.
 #[derive(Clone, Debug, Default)]
@@ -814,6 +666,145 @@ mod tests {
                 a.1,
                 b.1
             );
+        }
+    }
+
+    /// Two lists from one scoring, each as tantivy ranks it: on a library whose statements
+    /// draw their words from a Zipf-like vocabulary (a few words in nearly every statement,
+    /// as `forall` is), queried as goals are (a few rare symbols among common ones), each
+    /// list's scores are those of tantivy's own `BooleanQuery` of boosted `TermQuery`s
+    /// (tantivy 0.27, the reference), ranked by its `TopDocs` and then restricted to the
+    /// list's filter.
+    #[test]
+    fn top_lists_are_tantivys_boolean_query_ranking_under_each_filter() {
+        use tantivy::collector::TopDocs;
+        use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
+        let mut words: Vec<String> = [
+            "forall", "task", "=", "->", "queue", "tick", "slot", "run", "deadline",
+        ]
+        .iter()
+        .map(|w| w.to_string())
+        .collect();
+        words.extend((0..400).map(|i| format!("job{i}")));
+        // A linear congruential generator (Knuth's MMIX constants) and Zipf-like picks:
+        // word i with weight 1 / (i + 1).
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        let mut next = move || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 33) as f64 / (1u64 << 31) as f64
+        };
+        let harmonic: f64 = (0..words.len()).map(|i| 1.0 / (i + 1) as f64).sum();
+        let pick = |next: &mut dyn FnMut() -> f64| {
+            let mut x = next() * harmonic;
+            for (i, w) in words.iter().enumerate() {
+                x -= 1.0 / (i + 1) as f64;
+                if x <= 0.0 {
+                    return w.clone();
+                }
+            }
+            words[0].clone()
+        };
+        let statements: Vec<(String, String)> = (0..3000)
+            .map(|i| {
+                let len = 4 + (next() * 14.0) as usize;
+                let s: Vec<String> = (0..len).map(|_| pick(&mut next)).collect();
+                (format!("d{i}"), s.join(" "))
+            })
+            .collect();
+        let decls: Vec<(&str, &str)> = statements
+            .iter()
+            .map(|(n, s)| (n.as_str(), s.as_str()))
+            .collect();
+        let lib = library(&decls);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), decls.len()).unwrap();
+        let boosts = FieldBoosts::default();
+        let mut every_third = PremiseFilter::none(decls.len());
+        for i in (0..decls.len()).step_by(3) {
+            every_third.insert(DeclId(i as u32));
+        }
+        for _ in 0..30 {
+            // As a goal is: a few rare symbols among common ones.
+            let rare = 2 + (next() * 3.0) as usize;
+            let common = 3 + (next() * 6.0) as usize;
+            let mut texts: Vec<String> = (0..rare)
+                .map(|_| words[100 + (next() * 300.0) as usize].clone())
+                .collect();
+            texts.extend((0..common).map(|_| pick(&mut next)));
+            let terms: Vec<QueryTerm> = texts
+                .into_iter()
+                .map(|text| QueryTerm {
+                    text,
+                    weight: 0.3 + 0.7 * next() as f32,
+                })
+                .collect();
+            let wanted = [
+                WantedList {
+                    filter: Some(&every_third),
+                    limit: 30,
+                },
+                WantedList {
+                    filter: None,
+                    limit: 10,
+                },
+            ];
+            let lists = idx.top_lists(&terms, &boosts, &wanted).unwrap();
+            let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
+            for (field, boost) in [
+                (idx.fields.name, boosts.name),
+                (idx.fields.conclusion, boosts.conclusion),
+                (idx.fields.hypotheses, boosts.hypotheses),
+                (idx.fields.text, boosts.text),
+            ] {
+                for t in terms.iter().filter(|_| boost > 0.0) {
+                    let q = TermQuery::new(
+                        Term::from_field_text(field, &t.text),
+                        IndexRecordOption::WithFreqs,
+                    );
+                    clauses.push((
+                        Occur::Should,
+                        Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
+                    ));
+                }
+            }
+            // Every matching document in tantivy's order, with the declaration it holds.
+            let theirs: Vec<(DeclId, f32)> = idx
+                .reader
+                .searcher()
+                .search(
+                    &BooleanQuery::new(clauses),
+                    &TopDocs::with_limit(decls.len()).order_by_score(),
+                )
+                .unwrap()
+                .into_iter()
+                .map(|(score, at)| {
+                    let id = idx.doc_to_decl[at.segment_ord as usize][at.doc_id as usize];
+                    (DeclId(id), score)
+                })
+                .collect();
+            for (w, ours) in wanted.iter().zip(&lists) {
+                let expected: Vec<f32> = theirs
+                    .iter()
+                    .filter(|(id, _)| w.filter.is_none_or(|f| f.contains(*id)))
+                    .take(w.limit)
+                    .map(|h| h.1)
+                    .collect();
+                assert_eq!(ours.len(), expected.len(), "{terms:?}");
+                for ((id, a), b) in ours.iter().zip(&expected) {
+                    assert!(
+                        w.filter.is_none_or(|f| f.contains(*id)),
+                        "{id:?} is filtered out"
+                    );
+                    assert!(
+                        (a - b).abs() <= 1e-4 * b.abs().max(1.0),
+                        "ours {a} tantivy {b}"
+                    );
+                }
+            }
         }
     }
 
