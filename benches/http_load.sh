@@ -7,8 +7,9 @@
 # folder is given, starts the server on an ephemeral 127.0.0.1 port, and runs wrk (Debian's
 # `wrk`: apt-get install wrk) for DURATION (default 20s) with 16 connections on 2 threads,
 # each request one of a few goals of the demo library, or, with BODIES, one line after another
-# of that file (one JSON request body per line: real goals of the index's library).
-# CONNECTIONS (default 16) sets wrk's concurrent connections. QUARRY_LOAD_NO_BUILD=1 skips the
+# of that file (one JSON request body per line: real goals of the index's library;
+# benches/draw_bodies.py draws such a file from `quarry harvest`'s records).
+# CONNECTIONS (default 16) sets wrk's concurrent connections (on one thread when 1). QUARRY_LOAD_NO_BUILD=1 skips the
 # `cargo build --release` (for a binary built elsewhere: CARGO_TARGET_DIR picks it). Prints wrk's latency distribution
 # (median, p99) and requests/s, and the server's resident memory (VmRSS) after loading and
 # its peak (VmHWM) after the run. wrk reports any non-2xx answer in its summary. Traffic goes to 127.0.0.1 only, and the run stops by itself.
@@ -18,6 +19,9 @@ cd "$(dirname "$0")/.."
 duration="${2:-20s}"
 bodies="${3:-}"
 connections="${4:-16}"
+# wrk wants at least one connection per thread.
+threads=2
+[ "$connections" -ge 2 ] || threads=1
 command -v wrk >/dev/null || { echo "wrk is not installed: apt-get install wrk" >&2; exit 1; }
 
 [ -n "${QUARRY_LOAD_NO_BUILD:-}" ] || cargo build --release --quiet
@@ -74,7 +78,7 @@ echo "== memory after loading: VmRSS $(rss VmRSS)"
 # Warm up (page cache, allocator), then measure.
 export QUARRY_LOAD_BODIES="$bodies"
 [ -z "$bodies" ] || echo "== bodies: $(wc -l <"$bodies") lines of $bodies"
-wrk -t2 -c"$connections" -d2s -s "$work/post.lua" "$url/v1/rank" >/dev/null
-echo "== wrk -t2 -c$connections -d$duration --latency POST /v1/rank"
-wrk -t2 -c"$connections" -d"$duration" --latency -s "$work/post.lua" "$url/v1/rank"
+wrk -t"$threads" -c"$connections" -d2s -s "$work/post.lua" "$url/v1/rank" >/dev/null
+echo "== wrk -t$threads -c$connections -d$duration --latency POST /v1/rank"
+wrk -t"$threads" -c"$connections" -d"$duration" --latency -s "$work/post.lua" "$url/v1/rank"
 echo "== memory after the run: VmRSS $(rss VmRSS), peak VmHWM $(rss VmHWM)"
