@@ -585,8 +585,6 @@ mod tests {
     /// the reference here) gives every document the same score, to float rounding.
     #[test]
     fn scores_match_tantivys_own_scorer() {
-        use tantivy::collector::TopDocs;
-        use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
         let lib = library(&[
             ("slot_push", "forall r, push r slot = slot push r"),
             ("wrap", "wrap wrap wrap slot"),
@@ -624,34 +622,7 @@ mod tests {
         ];
         let mut ours = idx.scores(&terms, &boosts).unwrap().top(None, 10);
         ours.sort_by_key(|h| h.0);
-        let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
-        for (field, boost) in [
-            (idx.fields.name, boosts.name),
-            (idx.fields.conclusion, boosts.conclusion),
-            (idx.fields.hypotheses, boosts.hypotheses),
-            (idx.fields.text, boosts.text),
-        ] {
-            for t in &terms {
-                let q = TermQuery::new(
-                    Term::from_field_text(field, &t.text),
-                    IndexRecordOption::WithFreqs,
-                );
-                clauses.push((
-                    Occur::Should,
-                    Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
-                ));
-            }
-        }
-        let searcher = idx.reader.searcher();
-        let mut theirs: Vec<(DeclId, f32)> = searcher
-            .search(
-                &BooleanQuery::new(clauses),
-                &TopDocs::with_limit(10).order_by_score(),
-            )
-            .unwrap()
-            .into_iter()
-            .map(|(score, addr)| (DeclId(idx.doc_to_decl[0][addr.doc_id as usize]), score))
-            .collect();
+        let mut theirs = tantivy_ranking(&idx, &terms, &boosts, 10);
         theirs.sort_by_key(|h| h.0);
         assert_eq!(ours.len(), 4, "every document but `pop` matches");
         assert_eq!(
@@ -669,6 +640,50 @@ mod tests {
         }
     }
 
+    /// The best `limit` documents of tantivy's own `BooleanQuery` of one boosted `TermQuery`
+    /// per term and field (the reference the lexical tests compare with), best first, with
+    /// the declaration each holds.
+    fn tantivy_ranking(
+        idx: &LexicalIndex,
+        terms: &[QueryTerm],
+        boosts: &FieldBoosts,
+        limit: usize,
+    ) -> Vec<(DeclId, f32)> {
+        use tantivy::collector::TopDocs;
+        use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
+        let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
+        for (field, boost) in [
+            (idx.fields.name, boosts.name),
+            (idx.fields.conclusion, boosts.conclusion),
+            (idx.fields.hypotheses, boosts.hypotheses),
+            (idx.fields.text, boosts.text),
+        ] {
+            for t in terms.iter().filter(|_| boost > 0.0) {
+                let q = TermQuery::new(
+                    Term::from_field_text(field, &t.text),
+                    IndexRecordOption::WithFreqs,
+                );
+                clauses.push((
+                    Occur::Should,
+                    Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
+                ));
+            }
+        }
+        idx.reader
+            .searcher()
+            .search(
+                &BooleanQuery::new(clauses),
+                &TopDocs::with_limit(limit).order_by_score(),
+            )
+            .unwrap()
+            .into_iter()
+            .map(|(score, at)| {
+                let id = idx.doc_to_decl[at.segment_ord as usize][at.doc_id as usize];
+                (DeclId(id), score)
+            })
+            .collect()
+    }
+
     /// Two lists from one scoring, each as tantivy ranks it: on a library whose statements
     /// draw their words from a Zipf-like vocabulary (a few words in nearly every statement,
     /// as `forall` is), queried as goals are (a few rare symbols among common ones), each
@@ -677,8 +692,6 @@ mod tests {
     /// list's filter.
     #[test]
     fn top_lists_are_tantivys_boolean_query_ranking_under_each_filter() {
-        use tantivy::collector::TopDocs;
-        use tantivy::query::{BooleanQuery, BoostQuery, Occur, Query, TermQuery};
         let mut words: Vec<String> = [
             "forall", "task", "=", "->", "queue", "tick", "slot", "run", "deadline",
         ]
@@ -753,39 +766,8 @@ mod tests {
                 },
             ];
             let lists = idx.top_lists(&terms, &boosts, &wanted).unwrap();
-            let mut clauses: Vec<(Occur, Box<dyn Query>)> = Vec::new();
-            for (field, boost) in [
-                (idx.fields.name, boosts.name),
-                (idx.fields.conclusion, boosts.conclusion),
-                (idx.fields.hypotheses, boosts.hypotheses),
-                (idx.fields.text, boosts.text),
-            ] {
-                for t in terms.iter().filter(|_| boost > 0.0) {
-                    let q = TermQuery::new(
-                        Term::from_field_text(field, &t.text),
-                        IndexRecordOption::WithFreqs,
-                    );
-                    clauses.push((
-                        Occur::Should,
-                        Box::new(BoostQuery::new(Box::new(q), boost * t.weight)),
-                    ));
-                }
-            }
-            // Every matching document in tantivy's order, with the declaration it holds.
-            let theirs: Vec<(DeclId, f32)> = idx
-                .reader
-                .searcher()
-                .search(
-                    &BooleanQuery::new(clauses),
-                    &TopDocs::with_limit(decls.len()).order_by_score(),
-                )
-                .unwrap()
-                .into_iter()
-                .map(|(score, at)| {
-                    let id = idx.doc_to_decl[at.segment_ord as usize][at.doc_id as usize];
-                    (DeclId(id), score)
-                })
-                .collect();
+            // Every matching document in tantivy's order.
+            let theirs = tantivy_ranking(&idx, &terms, &boosts, decls.len());
             for (w, ours) in wanted.iter().zip(&lists) {
                 let expected: Vec<f32> = theirs
                     .iter()
