@@ -9,7 +9,6 @@ use std::path::PathBuf;
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion};
 use quarry::eval::queries::statement_goal;
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
-use quarry::index::lexical::WantedList;
 use quarry::index::{build_index, OpenIndex};
 use quarry::library::DeclKind;
 use quarry::query::{parse_goal, GoalSelection, QueryTerm};
@@ -123,24 +122,17 @@ fn bench_lexical(c: &mut Criterion) {
         .collect();
     let premises = index.default_candidates.clone();
     let voters = index.votable_filter.intersection(&premises);
-    let wanted = [
-        WantedList {
-            filter: Some(&premises),
-            limit: FUSION_DEPTH,
-        },
-        WantedList {
-            filter: Some(&voters),
-            limit: index.vote_params.neighbours,
-        },
-    ];
     let mut k = 0;
     group.bench_function(format!("bm25/{name}/two-lists"), |b| {
         b.iter(|| {
             k = (k + 1) % queries.len();
             index
                 .lexical
-                .top_lists(&queries[k], &index.lexical_boosts, &wanted)
-                .map(|l| l.iter().map(Vec::len).sum::<usize>())
+                .scores(&queries[k], &index.lexical_boosts)
+                .map(|s| {
+                    s.top(Some(&premises), FUSION_DEPTH).len()
+                        + s.top(Some(&voters), index.vote_params.neighbours).len()
+                })
                 .unwrap_or(0)
         })
     });

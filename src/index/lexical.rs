@@ -27,7 +27,6 @@ use crate::query::QueryTerm;
 use crate::retrieve::accessible::PremiseFilter;
 
 mod scoring;
-pub use scoring::WantedList;
 
 /// The name under which quarry's tokenizer is registered with tantivy.
 pub const TOKENIZER_NAME: &str = "quarry";
@@ -684,14 +683,14 @@ mod tests {
             .collect()
     }
 
-    /// Two lists from one scoring, each as tantivy ranks it: on a library whose statements
+    /// Two lists picked from one scoring, each as tantivy ranks it: on a library whose statements
     /// draw their words from a Zipf-like vocabulary (a few words in nearly every statement,
     /// as `forall` is), queried as goals are (a few rare symbols among common ones), each
     /// list's scores are those of tantivy's own `BooleanQuery` of boosted `TermQuery`s
     /// (tantivy 0.27, the reference), ranked by its `TopDocs` and then restricted to the
     /// list's filter.
     #[test]
-    fn top_lists_are_tantivys_boolean_query_ranking_under_each_filter() {
+    fn picks_are_tantivys_boolean_query_ranking_under_each_filter() {
         let mut words: Vec<String> = [
             "forall", "task", "=", "->", "queue", "tick", "slot", "run", "deadline",
         ]
@@ -755,30 +754,24 @@ mod tests {
                     weight: 0.3 + 0.7 * next() as f32,
                 })
                 .collect();
-            let wanted = [
-                WantedList {
-                    filter: Some(&every_third),
-                    limit: 30,
-                },
-                WantedList {
-                    filter: None,
-                    limit: 10,
-                },
-            ];
-            let lists = idx.top_lists(&terms, &boosts, &wanted).unwrap();
+            // One scoring, two picks, as a ranking makes them.
+            let scores = idx.scores(&terms, &boosts).unwrap();
+            let wanted: [(Option<&PremiseFilter>, usize); 2] =
+                [(Some(&every_third), 30), (None, 10)];
             // Every matching document in tantivy's order.
             let theirs = tantivy_ranking(&idx, &terms, &boosts, decls.len());
-            for (w, ours) in wanted.iter().zip(&lists) {
+            for (filter, limit) in wanted {
+                let ours = scores.top(filter, limit);
                 let expected: Vec<f32> = theirs
                     .iter()
-                    .filter(|(id, _)| w.filter.is_none_or(|f| f.contains(*id)))
-                    .take(w.limit)
+                    .filter(|(id, _)| filter.is_none_or(|f| f.contains(*id)))
+                    .take(limit)
                     .map(|h| h.1)
                     .collect();
                 assert_eq!(ours.len(), expected.len(), "{terms:?}");
                 for ((id, a), b) in ours.iter().zip(&expected) {
                     assert!(
-                        w.filter.is_none_or(|f| f.contains(*id)),
+                        filter.is_none_or(|f| f.contains(*id)),
                         "{id:?} is filtered out"
                     );
                     assert!(

@@ -18,7 +18,7 @@ use std::time::{Duration, Instant};
 use serde::{Deserialize, Serialize};
 
 use crate::dense::Encoder;
-use crate::index::lexical::{LexicalError, WantedList};
+use crate::index::lexical::LexicalError;
 use crate::index::OpenIndex;
 use crate::library::{DeclId, DeclKind};
 use crate::query::{parse_goal, GoalError, GoalSelection, GoalState, QueryTerm};
@@ -227,35 +227,13 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     // lists and the neighbour theorems, under their two filters.
     let wants = |s: Signal| selected.contains(&s);
     let neighbours_wanted = wants(Signal::Neighbours);
+    let lexical_scores = if wants(Signal::Lexical) || neighbours_wanted {
+        Some(index.lexical.scores(&terms, &index.lexical_boosts)?)
+    } else {
+        None
+    };
     let voters = neighbours_wanted.then(|| index.votable_filter.intersection(&filter));
     let k_near = index.vote_params.neighbours;
-    // One lexical scoring for both lists; a list nobody wants is asked for 0 hits.
-    let [mut lexical_premises, mut lexical_voters] = if wants(Signal::Lexical) || neighbours_wanted
-    {
-        let mut found = index
-            .lexical
-            .top_lists(
-                &terms,
-                &index.lexical_boosts,
-                &[
-                    WantedList {
-                        filter: Some(&filter),
-                        limit: if wants(Signal::Lexical) { depth } else { 0 },
-                    },
-                    WantedList {
-                        filter: voters.as_ref(),
-                        limit: if voters.is_some() { k_near } else { 0 },
-                    },
-                ],
-            )?
-            .into_iter();
-        [
-            found.next().unwrap_or_default(),
-            found.next().unwrap_or_default(),
-        ]
-    } else {
-        [Vec::new(), Vec::new()]
-    };
     // One dense search for both lists; a list nobody wants is asked for 0 hits.
     let [mut dense_premises, dense_voters] = match (&index.dense, &goal_vector) {
         (Some(d), Some(v)) => {
@@ -280,7 +258,10 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     let mut lists: Vec<(Signal, SignalList)> = Vec::new();
     for &signal in &selected {
         let list: SignalList = match signal {
-            Signal::Lexical => std::mem::take(&mut lexical_premises)
+            Signal::Lexical => lexical_scores
+                .as_ref()
+                .map(|s| s.top(Some(&*filter), depth))
+                .unwrap_or_default()
                 .into_iter()
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
@@ -289,7 +270,11 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
             Signal::Neighbours => {
-                let near = nearest_theorems(std::mem::take(&mut lexical_voters), &dense_voters);
+                let lexical_near = match (&lexical_scores, &voters) {
+                    (Some(s), Some(v)) => s.top(Some(v), k_near),
+                    _ => Vec::new(),
+                };
+                let near = nearest_theorems(lexical_near, &dense_voters);
                 neighbour_votes(
                     &library.graph,
                     &index.usage,

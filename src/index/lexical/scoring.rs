@@ -23,20 +23,11 @@ use tantivy::Term;
 use super::{FieldBoosts, LexicalError, LexicalField, LexicalIndex, LexicalScores};
 use crate::library::DeclId;
 use crate::query::QueryTerm;
-use crate::retrieve::accessible::PremiseFilter;
 
 /// BM25's k1 and b, the values tantivy (and Lucene) use: the common middle of the ranges
 /// Robertson and Zaragoza recommend (k1 in 1.2..2.0, b = 0.75).
 const BM25_K1: f32 = 1.2;
 const BM25_B: f32 = 0.75;
-
-/// One list a caller wants from a query's scores: the best `limit` declarations among those
-/// `filter` allows (all declarations when `None`).
-#[derive(Clone, Copy, Debug)]
-pub struct WantedList<'a> {
-    pub filter: Option<&'a PremiseFilter>,
-    pub limit: usize,
-}
 
 /// BM25's idf in its non-negative form, ln(1 + (N − n + 0.5) / (n + 0.5)), as tantivy
 /// computes it.
@@ -78,7 +69,9 @@ impl LexicalIndex {
     /// with a non-zero boost: the sum over fields and terms of boost · term weight · BM25.
     /// Scores are tantivy's own BM25 (k1 = 1.2, b = 0.75, idf from the segments' document
     /// frequencies, its fieldnorm coding of document length); a unit test checks them
-    /// against tantivy's `TermQuery` scorer, another against its `BooleanQuery` of them.
+    /// against tantivy's `TermQuery` scorer, another against its `BooleanQuery` of them. A ranking
+    /// needs these scores under two filters (the premises allowed, and the theorems allowed
+    /// to vote): it scores once and [`LexicalScores::top`] picks each list.
     pub fn scores(
         &self,
         terms: &[QueryTerm],
@@ -210,24 +203,5 @@ impl LexicalIndex {
             }
         }
         Ok(LexicalScores { hits })
-    }
-
-    /// The best `limit` declarations of each list in `wanted`, best first, from one
-    /// scoring of `terms` (see [`LexicalIndex::scores`]): a ranking wants the premises
-    /// allowed and the theorems allowed to vote from the same scores.
-    pub fn top_lists(
-        &self,
-        terms: &[QueryTerm],
-        boosts: &FieldBoosts,
-        wanted: &[WantedList<'_>],
-    ) -> Result<Vec<Vec<(DeclId, f32)>>, LexicalError> {
-        if wanted.iter().all(|w| w.limit == 0) {
-            return Ok(vec![Vec::new(); wanted.len()]);
-        }
-        let scores = self.scores(terms, boosts)?;
-        Ok(wanted
-            .iter()
-            .map(|w| scores.top(w.filter, w.limit))
-            .collect())
     }
 }
