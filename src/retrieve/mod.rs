@@ -281,9 +281,9 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
                     &near,
                     Some(&filter),
                     &index.vote_params,
+                    depth,
                 )
                 .into_iter()
-                .take(depth)
                 .map(|v| (v.id, v.score, v.voters))
                 .collect()
             }

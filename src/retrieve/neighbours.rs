@@ -89,38 +89,69 @@ pub struct VotedPremise {
 }
 
 /// Scores premises by the votes of `neighbours` ((theorem, similarity in 0..=1), any
-/// order; a theorem listed twice votes twice). Returns the premises best first, ties
-/// broken by id.
+/// order; a theorem listed twice votes twice). Returns the best `limit` premises, best
+/// first, ties broken by id, each with the neighbours that voted for it.
+///
+/// The votes are gathered as (premise, vote) pairs and summed after a stable sort by
+/// premise, so each premise's votes add up in neighbour order; the voters are listed only
+/// for the premises kept (most voted premises fall outside the limit).
 pub fn neighbour_votes(
     graph: &DependencyGraph,
     usage: &PremiseUsage,
     neighbours: &[(DeclId, f32)],
     allowed: Option<&PremiseFilter>,
     params: &VoteParams,
+    limit: usize,
 ) -> Vec<VotedPremise> {
-    let mut scores: HashMap<DeclId, (f32, Vec<(DeclId, f32)>)> = HashMap::new();
     let ok = |id: DeclId| allowed.is_none_or(|f| f.contains(id));
+    let weight = |sim: f32| (!sim.is_nan() && sim > 0.0).then(|| sim.powf(params.sharpness));
+    let mut votes: Vec<(DeclId, f32)> = Vec::new();
     for &(n, sim) in neighbours {
-        if sim.is_nan() || sim <= 0.0 {
+        let Some(w) = weight(sim) else {
             continue;
-        }
-        let w = sim.powf(params.sharpness);
+        };
         if ok(n) && params.self_weight > 0.0 {
-            scores.entry(n).or_default().0 += w * params.self_weight * usage.idf(n);
+            votes.push((n, w * params.self_weight * usage.idf(n)));
         }
-        for p in graph.premises(n) {
-            if !ok(p) {
-                continue;
-            }
-            let vote = w * usage.idf(p);
-            let e = scores.entry(p).or_default();
-            e.0 += vote;
-            e.1.push((n, vote));
+        votes.extend(
+            graph
+                .premises(n)
+                .filter(|&p| ok(p))
+                .map(|p| (p, w * usage.idf(p))),
+        );
+    }
+    votes.sort_by_key(|v| v.0);
+    let mut scored: Vec<(DeclId, f32)> = Vec::new();
+    for (id, vote) in votes {
+        match scored.last_mut() {
+            Some(last) if last.0 == id => last.1 += vote,
+            _ => scored.push((id, vote)),
         }
     }
-    let mut out: Vec<VotedPremise> = scores
+    let order = |a: &(DeclId, f32), b: &(DeclId, f32)| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0));
+    if scored.len() > limit {
+        scored.select_nth_unstable_by(limit, order);
+        scored.truncate(limit);
+    }
+    scored.sort_unstable_by(order);
+    // The voters of the kept premises, strongest vote first.
+    let place: HashMap<DeclId, usize> = scored.iter().enumerate().map(|(i, s)| (s.0, i)).collect();
+    let mut by_premise: Vec<Vec<(DeclId, f32)>> = vec![Vec::new(); scored.len()];
+    for &(n, sim) in neighbours {
+        let Some(w) = weight(sim) else {
+            continue;
+        };
+        for p in graph.premises(n) {
+            // Only allowed premises were scored, so only they have a place.
+            if let Some(list) = place.get(&p).and_then(|&i| by_premise.get_mut(i)) {
+                list.push((n, w * usage.idf(p)));
+            }
+        }
+    }
+    scored
         .into_iter()
-        .map(|(id, (score, mut votes))| {
+        .zip(by_premise)
+        .map(|((id, score), mut votes)| {
             votes.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
             let mut voters: Vec<DeclId> = Vec::with_capacity(votes.len());
             for (v, _) in votes {
@@ -130,9 +161,7 @@ pub fn neighbour_votes(
             }
             VotedPremise { id, score, voters }
         })
-        .collect();
-    out.sort_by(|a, b| b.score.total_cmp(&a.score).then(a.id.cmp(&b.id)));
-    out
+        .collect()
 }
 
 #[cfg(test)]
@@ -191,6 +220,7 @@ mod tests {
             &[(DeclId(0), 1.0), (DeclId(1), 0.5)],
             None,
             &params,
+            10,
         );
         let order: Vec<u32> = out.iter().map(|v| v.id.0).collect();
         assert_eq!(order, vec![5, 4, 7, 6]);
@@ -200,6 +230,16 @@ mod tests {
         }
         assert_eq!(out[1].voters, vec![DeclId(0), DeclId(1)]);
         assert_eq!(out[3].voters, vec![DeclId(1)]);
+        // A limit keeps the best of the same list, with the same scores and voters.
+        let top2 = neighbour_votes(
+            &g,
+            &usage,
+            &[(DeclId(0), 1.0), (DeclId(1), 0.5)],
+            None,
+            &params,
+            2,
+        );
+        assert_eq!(top2, out[..2].to_vec());
     }
 
     #[test]
@@ -214,6 +254,7 @@ mod tests {
             &[(DeclId(0), 1.0)],
             Some(&allowed),
             &VoteParams::default(),
+            10,
         );
         let ids: Vec<u32> = out.iter().map(|v| v.id.0).collect();
         assert!(!ids.contains(&5));
