@@ -14,7 +14,7 @@
 
 use std::collections::BinaryHeap;
 use std::path::Path;
-use std::sync::Arc;
+use std::sync::{Arc, RwLock};
 
 use tantivy::schema::{
     Field, IndexRecordOption, Schema, TextFieldIndexing, TextOptions, Value, FAST, STORED, STRING,
@@ -26,7 +26,10 @@ use crate::library::{DeclId, Library};
 use crate::query::QueryTerm;
 use crate::retrieve::accessible::PremiseFilter;
 
+mod impacts;
 mod scoring;
+
+pub use impacts::ImpactTable;
 
 /// The name under which quarry's tokenizer is registered with tantivy.
 pub const TOKENIZER_NAME: &str = "quarry";
@@ -246,6 +249,8 @@ pub struct LexicalIndex {
     /// Per segment: tantivy doc id → declaration id.
     doc_to_decl: Vec<Vec<u32>>,
     path: String,
+    /// The impact table of the boosts last asked for ([`LexicalIndex::prepare`]).
+    impacts: RwLock<Option<Arc<ImpactTable>>>,
 }
 
 impl LexicalIndex {
@@ -299,6 +304,7 @@ impl LexicalIndex {
             fields,
             doc_to_decl,
             path: dir.display().to_string(),
+            impacts: RwLock::new(None),
         })
     }
 
@@ -778,6 +784,43 @@ mod tests {
                         (a - b).abs() <= 1e-4 * b.abs().max(1.0),
                         "ours {a} tantivy {b}"
                     );
+                }
+            }
+        }
+    }
+
+    /// Scores are the same whatever the thread scored before: the accumulator a thread
+    /// keeps between queries is left all zero, and a table computed for other boosts is
+    /// replaced, not mixed in (the reference is each query scored by tantivy).
+    #[test]
+    fn scores_do_not_depend_on_the_queries_before() {
+        let lib = library(&[
+            ("tick", "tick slot deadline"),
+            ("run", "run task slot"),
+            ("drop", "drop task"),
+            ("idle", "idle"),
+        ]);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("lexical");
+        build(&lib, whitespace(), &path).unwrap();
+        let idx = LexicalIndex::open(&path, whitespace(), 4).unwrap();
+        let queries = [
+            vec![term("slot"), term("task")],
+            vec![term("deadline")],
+            vec![term("idle"), term("slot")],
+        ];
+        for boosts in [FieldBoosts::default(), FieldBoosts::text_only()] {
+            for _round in 0..2 {
+                for q in &queries {
+                    let mut ours = idx.scores(q, &boosts).unwrap().top(None, 10);
+                    ours.sort_by_key(|h| h.0);
+                    let mut theirs = tantivy_ranking(&idx, q, &boosts, 10);
+                    theirs.sort_by_key(|h| h.0);
+                    assert_eq!(ours.len(), theirs.len(), "{q:?}");
+                    for (a, b) in ours.iter().zip(&theirs) {
+                        assert_eq!(a.0, b.0);
+                        assert!((a.1 - b.1).abs() <= 1e-5 * b.1.abs().max(1.0));
+                    }
                 }
             }
         }

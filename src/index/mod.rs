@@ -368,6 +368,8 @@ impl OpenIndex {
             tokenize_fn(tokenizer.clone()),
             library.declarations.len(),
         )?;
+        // Computed now, so the first query does not wait for it.
+        lexical.prepare(&lexical::FieldBoosts::default())?;
         let dense = DensePart::load(&generation, library.declarations.len())?;
         let votable = if generation.manifest.parts.contains_key(VOTABLE_PART) {
             let bytes = generation.read_part(VOTABLE_PART)?;
