@@ -32,7 +32,7 @@ const BM25_B: f32 = 0.75;
 
 /// BM25's idf in its non-negative form, ln(1 + (N − n + 0.5) / (n + 0.5)), as tantivy
 /// computes it.
-pub(super) fn bm25_idf(doc_freq: u64, docs: u64) -> f32 {
+fn bm25_idf(doc_freq: u64, docs: u64) -> f32 {
     let n = doc_freq.min(docs);
     let x = ((docs - n) as f32 + 0.5) / (n as f32 + 0.5);
     (1.0 + x).ln()
@@ -82,27 +82,12 @@ impl ImpactTable {
             _ => (&[], &[]),
         }
     }
-
-    /// (term, declaration) pairs held.
-    pub fn len(&self) -> usize {
-        self.decls.len()
-    }
-
-    /// Whether no term occurs anywhere.
-    pub fn is_empty(&self) -> bool {
-        self.decls.is_empty()
-    }
-
-    /// Bytes of the postings (the term texts and the map not counted).
-    pub fn posting_bytes(&self) -> usize {
-        self.decls.len() * (size_of::<u32>() + size_of::<f32>())
-    }
 }
 
 impl LexicalIndex {
     /// Computes the impact table of `boosts` by reading every posting list of every field
     /// with a non-zero boost once.
-    pub fn impact_table(&self, boosts: &FieldBoosts) -> Result<ImpactTable, LexicalError> {
+    pub(super) fn impact_table(&self, boosts: &FieldBoosts) -> Result<ImpactTable, LexicalError> {
         let searcher = self.reader.searcher();
         let mut by_term: HashMap<String, Vec<(u32, f32)>> = HashMap::new();
         for (which, boost) in [
