@@ -114,7 +114,8 @@ fn bench_lexical(c: &mut Criterion) {
         })
     });
     // The lexical scoring alone, as a fused ranking asks for it: every matching declaration
-    // scored once, then the premise list 100 deep and the 40 voting theorems picked.
+    // scored once, the premise list 100 deep and the 40 voting theorems picked as the scores
+    // are collected.
     let queries: Vec<Vec<QueryTerm>> = goals
         .iter()
         .filter_map(|g| parse_goal(g).ok())
@@ -128,11 +129,15 @@ fn bench_lexical(c: &mut Criterion) {
             k = (k + 1) % queries.len();
             index
                 .lexical
-                .scores(&queries[k], &index.lexical_boosts)
-                .map(|s| {
-                    s.top(Some(&premises), FUSION_DEPTH).len()
-                        + s.top(Some(&voters), index.vote_params.neighbours).len()
-                })
+                .top_lists(
+                    &queries[k],
+                    &index.lexical_boosts,
+                    &[
+                        (Some(&premises), FUSION_DEPTH),
+                        (Some(&voters), index.vote_params.neighbours),
+                    ],
+                )
+                .map(|lists| lists.iter().map(Vec::len).sum::<usize>())
                 .unwrap_or(0)
         })
     });

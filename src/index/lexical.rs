@@ -12,7 +12,6 @@
 //! formula against reference implementations), `kind` (raw), and `id` (the declaration id,
 //! a fast field).
 
-use std::collections::BinaryHeap;
 use std::path::Path;
 use std::sync::{Arc, RwLock};
 
@@ -28,6 +27,9 @@ use crate::retrieve::accessible::PremiseFilter;
 
 mod impacts;
 mod scoring;
+mod top;
+
+use top::TopPick;
 
 pub use impacts::ImpactTable;
 
@@ -410,61 +412,14 @@ impl LexicalScores {
     ///
     /// One pass with a heap of the `limit` best so far: a ranking picks two short lists
     /// from thousands of matches, and copying the matches to sort them cost more than
-    /// the scoring.
+    /// the scoring. A ranking picks both lists while scoring, with
+    /// [`LexicalIndex::top_lists`]; this is for one list, or for scores kept.
     pub fn top(&self, filter: Option<&PremiseFilter>, limit: usize) -> Vec<(DeclId, f32)> {
-        if limit == 0 {
-            return Vec::new();
-        }
-        let mut heap: BinaryHeap<Ranked> = BinaryHeap::with_capacity(limit + 1);
-        // Once the heap is full, the score of its worst entry: most matches fall below it
-        // and are passed over on one float comparison.
-        let mut bar = f32::NEG_INFINITY;
+        let mut pick = TopPick::new(filter, limit);
         for &(id, score) in &self.hits {
-            if score < bar || filter.is_some_and(|f| !f.contains(id)) {
-                continue;
-            }
-            let hit = Ranked(id, score);
-            if heap.len() < limit {
-                heap.push(hit);
-            } else if heap.peek().is_some_and(|worst| hit < *worst) {
-                heap.pop();
-                heap.push(hit);
-            } else {
-                continue;
-            }
-            if heap.len() == limit {
-                bar = heap.peek().map_or(bar, |worst| worst.1);
-            }
+            pick.offer(id, score);
         }
-        heap.into_sorted_vec()
-            .into_iter()
-            .map(|Ranked(id, score)| (id, score))
-            .collect()
-    }
-}
-
-/// A scored declaration ordered best first: `a < b` when `a` ranks above `b` (higher
-/// score, then smaller id), so a max-heap keeps the worst of its entries on top.
-#[derive(Clone, Copy, Debug)]
-struct Ranked(DeclId, f32);
-
-impl PartialEq for Ranked {
-    fn eq(&self, other: &Self) -> bool {
-        self.cmp(other) == std::cmp::Ordering::Equal
-    }
-}
-
-impl Eq for Ranked {}
-
-impl PartialOrd for Ranked {
-    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
-        Some(self.cmp(other))
-    }
-}
-
-impl Ord for Ranked {
-    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
-        other.1.total_cmp(&self.1).then(self.0.cmp(&other.0))
+        pick.into_sorted()
     }
 }
 
@@ -766,8 +721,12 @@ mod tests {
                 [(Some(&every_third), 30), (None, 10)];
             // Every matching document in tantivy's order.
             let theirs = tantivy_ranking(&idx, &terms, &boosts, decls.len());
-            for (filter, limit) in wanted {
+            // Both lists picked while scoring, as a ranking asks for them, are the same.
+            let together = idx.top_lists(&terms, &boosts, &wanted).unwrap();
+            assert_eq!(together.len(), 2);
+            for ((filter, limit), picked) in wanted.into_iter().zip(together) {
                 let ours = scores.top(filter, limit);
+                assert_eq!(picked, ours, "picked while scoring, {terms:?}");
                 let expected: Vec<f32> = theirs
                     .iter()
                     .filter(|(id, _)| filter.is_none_or(|f| f.contains(*id)))

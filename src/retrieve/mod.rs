@@ -227,13 +227,30 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     // lists and the neighbour theorems, under their two filters.
     let wants = |s: Signal| selected.contains(&s);
     let neighbours_wanted = wants(Signal::Neighbours);
-    let lexical_scores = if wants(Signal::Lexical) || neighbours_wanted {
-        Some(index.lexical.scores(&terms, &index.lexical_boosts)?)
-    } else {
-        None
-    };
     let voters = neighbours_wanted.then(|| index.votable_filter.intersection(&filter));
     let k_near = index.vote_params.neighbours;
+    // One lexical scoring for both lists, picked as the scores are collected.
+    let [mut lexical_premises, mut lexical_near] = if wants(Signal::Lexical) || neighbours_wanted {
+        let premises_n = if wants(Signal::Lexical) { depth } else { 0 };
+        let voters_n = if voters.is_some() { k_near } else { 0 };
+        let mut found = index
+            .lexical
+            .top_lists(
+                &terms,
+                &index.lexical_boosts,
+                &[
+                    (Some(&*filter), premises_n),
+                    (Some(voters.as_ref().unwrap_or(&filter)), voters_n),
+                ],
+            )?
+            .into_iter();
+        [
+            found.next().unwrap_or_default(),
+            found.next().unwrap_or_default(),
+        ]
+    } else {
+        [Vec::new(), Vec::new()]
+    };
     // One dense search for both lists; a list nobody wants is asked for 0 hits.
     let [mut dense_premises, dense_voters] = match (&index.dense, &goal_vector) {
         (Some(d), Some(v)) => {
@@ -258,10 +275,7 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
     let mut lists: Vec<(Signal, SignalList)> = Vec::new();
     for &signal in &selected {
         let list: SignalList = match signal {
-            Signal::Lexical => lexical_scores
-                .as_ref()
-                .map(|s| s.top(Some(&*filter), depth))
-                .unwrap_or_default()
+            Signal::Lexical => std::mem::take(&mut lexical_premises)
                 .into_iter()
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
@@ -270,11 +284,7 @@ pub fn rank(index: &OpenIndex, request: &RankRequest) -> Result<PremiseRanking, 
                 .map(|(id, s)| (id, s, Vec::new()))
                 .collect(),
             Signal::Neighbours => {
-                let lexical_near = match (&lexical_scores, &voters) {
-                    (Some(s), Some(v)) => s.top(Some(v), k_near),
-                    _ => Vec::new(),
-                };
-                let near = nearest_theorems(lexical_near, &dense_voters);
+                let near = nearest_theorems(std::mem::take(&mut lexical_near), &dense_voters);
                 neighbour_votes(
                     &library.graph,
                     &index.usage,

@@ -16,9 +16,11 @@ use std::cell::RefCell;
 use std::sync::Arc;
 
 use super::impacts::ImpactTable;
+use super::top::TopPick;
 use super::{FieldBoosts, LexicalError, LexicalIndex, LexicalScores};
 use crate::library::DeclId;
 use crate::query::QueryTerm;
+use crate::retrieve::accessible::PremiseFilter;
 
 /// One thread's accumulator: a score per declaration and a bit per declaration that has
 /// one. Both are all zero between queries.
@@ -39,7 +41,7 @@ impl LexicalIndex {
     /// frequencies, its fieldnorm coding of document length); a unit test checks them
     /// against tantivy's `TermQuery` scorer, another against its `BooleanQuery` of them. A ranking
     /// needs these scores under two filters (the premises allowed, and the theorems allowed
-    /// to vote): it scores once and [`LexicalScores::top`] picks each list.
+    /// to vote): it asks [`LexicalIndex::top_lists`] for both at once instead.
     ///
     /// The first query with a set of boosts computes their impact table (about 60 ms on
     /// the Coq standard library: opening went from 39–63 to 107–115 ms); it is kept for the
@@ -51,11 +53,43 @@ impl LexicalIndex {
     ) -> Result<LexicalScores, LexicalError> {
         let table = self.prepare(boosts)?;
         let declarations = self.document_count();
-        let hits = ACCUMULATOR.with(|cell| {
+        let mut hits = Vec::new();
+        ACCUMULATOR.with(|cell| {
             let mut acc = cell.borrow_mut();
-            score_into(&mut acc, &table, terms, declarations)
+            score_into(&mut acc, &table, terms, declarations, |id, score| {
+                hits.push((id, score))
+            });
         });
         Ok(LexicalScores { hits })
+    }
+
+    /// For each of `lists` (a filter, `None` for all, and a length), the best declarations
+    /// by BM25 for `terms`, best first, as [`LexicalScores::top`] would pick them from
+    /// [`LexicalIndex::scores`]: the lists are picked while the scores are collected, in
+    /// one pass and without keeping the scores (the two picks cost a ranking about a tenth
+    /// of its time when they were two passes over the kept scores; docs/performance.md,
+    /// "HTTP server").
+    pub fn top_lists(
+        &self,
+        terms: &[QueryTerm],
+        boosts: &FieldBoosts,
+        lists: &[(Option<&PremiseFilter>, usize)],
+    ) -> Result<Vec<Vec<(DeclId, f32)>>, LexicalError> {
+        let table = self.prepare(boosts)?;
+        let declarations = self.document_count();
+        let mut picks: Vec<TopPick> = lists
+            .iter()
+            .map(|&(filter, limit)| TopPick::new(filter, limit))
+            .collect();
+        ACCUMULATOR.with(|cell| {
+            let mut acc = cell.borrow_mut();
+            score_into(&mut acc, &table, terms, declarations, |id, score| {
+                for pick in &mut picks {
+                    pick.offer(id, score);
+                }
+            });
+        });
+        Ok(picks.into_iter().map(TopPick::into_sorted).collect())
     }
 
     /// The impact table of `boosts`: the kept one when it was computed with them, else a
@@ -75,14 +109,15 @@ impl LexicalIndex {
     }
 }
 
-/// Adds each term's weighted impacts into `acc`, collects the declarations touched with
-/// their scores, and leaves `acc` all zero again.
+/// Adds each term's weighted impacts into `acc`, hands each declaration touched with its
+/// score to `collect` (by increasing declaration id), and leaves `acc` all zero again.
 fn score_into(
     acc: &mut Accumulator,
     table: &ImpactTable,
     terms: &[QueryTerm],
     declarations: usize,
-) -> Vec<(DeclId, f32)> {
+    mut collect: impl FnMut(DeclId, f32),
+) {
     if acc.scores.len() < declarations {
         acc.scores.resize(declarations, 0.0);
         acc.touched.resize(declarations.div_ceil(64), 0);
@@ -103,7 +138,6 @@ fn score_into(
             }
         }
     }
-    let mut hits = Vec::new();
     let words = declarations.div_ceil(64);
     for (word_index, word) in touched.iter_mut().take(words).enumerate() {
         let mut bits = std::mem::take(word);
@@ -111,9 +145,8 @@ fn score_into(
             let d = word_index * 64 + bits.trailing_zeros() as usize;
             bits &= bits - 1;
             if let Some(s) = scores.get_mut(d) {
-                hits.push((DeclId(d as u32), std::mem::take(s)));
+                collect(DeclId(d as u32), std::mem::take(s));
             }
         }
     }
-    hits
 }
