@@ -79,7 +79,11 @@ fn rank_answers_with_premises_the_parsed_goal_and_the_index_identity() {
     // A goal over 8 KiB is ranked on a blocking thread, a shorter one on the thread that
     // read the request: the same goal padded with spaces past that size is answered alike.
     let short = post_json(&agent, &server.url("/v1/rank"), &rank_body(GOAL));
-    let padded = GOAL.replacen("q : queue", &format!("q : queue{}", " ".repeat(9 * 1024)), 1);
+    let padded = GOAL.replacen(
+        "q : queue",
+        &format!("q : queue{}", " ".repeat(9 * 1024)),
+        1,
+    );
     assert!(padded.len() > 9 * 1024);
     let long = post_json(&agent, &server.url("/v1/rank"), &rank_body(&padded));
     assert_eq!((short.status, long.status), (200, 200), "{}", long.text);
