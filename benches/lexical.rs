@@ -1,15 +1,18 @@
 //! The lexical path on the Coq standard library index (Debian's `libcoq-stdlib`; the demo
 //! library when it is not installed): tokenizing a goal, parsing a goal display, opening
 //! the index, ranking a typical goal (fused, and with the lexical signal alone), BM25 scoring
-//! alone, and refusing a 10 MB goal.
+//! alone, refusing a 10 MB goal, and building the lexical index (tantivy written, opened
+//! and its impact table computed: what a query waits for).
 //! `cargo bench --bench lexical`; figures in docs/performance.md.
 
 use std::path::PathBuf;
+use std::sync::Arc;
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion};
 use quarry::eval::queries::statement_goal;
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
-use quarry::index::{build_index, OpenIndex};
+use quarry::index::lexical::{self, FieldBoosts, LexicalIndex};
+use quarry::index::{build_index, library_tokenizer, tokenize_fn, OpenIndex};
 use quarry::library::DeclKind;
 use quarry::query::{parse_goal, GoalSelection, QueryTerm};
 use quarry::retrieve::{rank, RankRequest, Signal, FUSION_DEPTH};
@@ -154,6 +157,54 @@ fn bench_lexical(c: &mut Criterion) {
         b.iter(|| parse_goal(&huge).is_err())
     });
     group.sample_size(10);
+    let tokenizer = Arc::new(library_tokenizer(&library));
+    // What the lexical build tokenizes: each declaration's name, conclusion, hypotheses and
+    // its name with its statement (the four text fields).
+    let field_texts: Vec<String> = library
+        .declarations
+        .iter()
+        .flat_map(|d| {
+            let name = lexical::local_name(&library, d.id);
+            [
+                name.to_string(),
+                lexical::conclusion_text(&library, d.id).to_string(),
+                lexical::hypotheses_text(&library, d.id),
+                format!("{name}\n{}", d.statement),
+            ]
+        })
+        .collect();
+    let tokenize = tokenize_fn(tokenizer.clone());
+    group.bench_function(format!("tokenize/{name}/every-field"), |b| {
+        let mut out = Vec::new();
+        b.iter(|| {
+            let mut n = 0;
+            for t in &field_texts {
+                out.clear();
+                tokenize(t, &mut out);
+                n += out.len();
+            }
+            n
+        })
+    });
+    group.bench_function(format!("build/{name}"), |b| {
+        b.iter_batched(
+            || tempfile::tempdir().expect("a temporary folder"),
+            |scratch| {
+                let lexical_dir = scratch.path().join("lexical");
+                lexical::build(&library, tokenize_fn(tokenizer.clone()), &lexical_dir)
+                    .and_then(|_| {
+                        LexicalIndex::open(
+                            &lexical_dir,
+                            tokenize_fn(tokenizer.clone()),
+                            library.declarations.len(),
+                        )
+                    })
+                    .and_then(|built| built.prepare(&FieldBoosts::default()).map(|_| ()))
+                    .is_ok()
+            },
+            BatchSize::PerIteration,
+        )
+    });
     group.bench_function(format!("open/{name}"), |b| {
         b.iter_batched(
             || (),

@@ -211,6 +211,11 @@ fn tantivy_err(path: &Path) -> impl FnOnce(tantivy::TantivyError) -> LexicalErro
     }
 }
 
+/// Documents handed to tantivy's indexing thread at a time: one channel message per batch
+/// instead of one per document (`cargo bench --bench lexical -- lexical/build`: 364 → 330 ms
+/// on the Coq standard library).
+const BATCH: usize = 1024;
+
 /// Builds the lexical index of `library` into the folder `dir` (created, must be empty).
 pub fn build(library: &Library, tokenize: TokenizeFn, dir: &Path) -> Result<(), LexicalError> {
     std::fs::create_dir_all(dir).map_err(|e| LexicalError::Invalid {
@@ -225,19 +230,26 @@ pub fn build(library: &Library, tokenize: TokenizeFn, dir: &Path) -> Result<(), 
     let mut writer: tantivy::IndexWriter = index
         .writer_with_num_threads(1, 64 << 20)
         .map_err(tantivy_err(dir))?;
+    let mut batch = Vec::with_capacity(BATCH);
     for d in &library.declarations {
         let name = local_name(library, d.id);
         let text = format!("{name}\n{}", d.statement);
-        writer
-            .add_document(doc!(
-                f.id => d.id.0 as u64,
-                f.name => name,
-                f.conclusion => conclusion_text(library, d.id),
-                f.hypotheses => hypotheses_text(library, d.id),
-                f.text => text,
-                f.kind => d.kind.as_str(),
-            ))
-            .map_err(tantivy_err(dir))?;
+        batch.push(tantivy::indexer::UserOperation::Add(doc!(
+            f.id => d.id.0 as u64,
+            f.name => name,
+            f.conclusion => conclusion_text(library, d.id),
+            f.hypotheses => hypotheses_text(library, d.id),
+            f.text => text,
+            f.kind => d.kind.as_str(),
+        )));
+        if batch.len() == BATCH {
+            writer
+                .run(std::mem::take(&mut batch))
+                .map_err(tantivy_err(dir))?;
+        }
+    }
+    if !batch.is_empty() {
+        writer.run(batch).map_err(tantivy_err(dir))?;
     }
     writer.commit().map_err(tantivy_err(dir))?;
     writer.wait_merging_threads().map_err(tantivy_err(dir))?;
