@@ -273,42 +273,26 @@ async fn on_worker<T: Send + 'static>(
     short: bool,
     work: impl FnOnce() -> T + Send + 'static,
 ) -> Result<T, ApiError> {
-    if !short {
-        return on_blocking_thread(state, work).await;
-    }
-    let _held = state
-        .workers
-        .clone()
-        .acquire_owned()
-        .await
-        .map_err(|_| ApiError::new(ErrorCode::Internal, "the server is shutting down"))?;
-    std::panic::catch_unwind(std::panic::AssertUnwindSafe(work)).map_err(|_| {
-        eprintln!("quarry: a ranking panicked");
-        ApiError::new(
-            ErrorCode::Internal,
-            "ranking met an internal fault; the server's log has the details",
-        )
-    })
-}
-
-/// Runs `work` on a blocking thread once a worker is free.
-async fn on_blocking_thread<T: Send + 'static>(
-    state: &AppState,
-    work: impl FnOnce() -> T + Send + 'static,
-) -> Result<T, ApiError> {
     let permit = state
         .workers
         .clone()
         .acquire_owned()
         .await
         .map_err(|_| ApiError::new(ErrorCode::Internal, "the server is shutting down"))?;
-    tokio::task::spawn_blocking(move || {
+    let done = if short {
         let _held = permit;
-        work()
-    })
-    .await
-    .map_err(|e| {
-        eprintln!("quarry: a ranking worker failed: {e}");
+        std::panic::catch_unwind(std::panic::AssertUnwindSafe(work))
+            .map_err(|_| "a ranking panicked".to_string())
+    } else {
+        tokio::task::spawn_blocking(move || {
+            let _held = permit;
+            work()
+        })
+        .await
+        .map_err(|e| format!("a ranking worker failed: {e}"))
+    };
+    done.map_err(|why| {
+        eprintln!("quarry: {why}");
         ApiError::new(
             ErrorCode::Internal,
             "ranking met an internal fault; the server's log has the details",
