@@ -322,7 +322,7 @@ def main():
     transformer = None
     slot = os.path.join(os.path.dirname(out_path), "transformer.json")
     if os.path.exists(slot):
-        # Written by the transformer encoder's own bench (another engineer's work): rows of
+        # Written by benches/peers/transformer.py just before (run.sh): rows of
         # {"measure", "quarry", "peer", "better"} against sentence-transformers.
         with open(slot) as f:
             transformer = json.load(f)
@@ -344,7 +344,7 @@ def main():
     fused_agree = overlap_at_10(q_fused["top10"], pipeline["top10"])
     print(f"fused top-10 agreement, quarry vs the Python pipeline: {fused_agree:.3f}")
     if transformer is None:
-        print("transformer embeddings vs sentence-transformers: not measured here (slot: transformer.json)")
+        print("transformer embeddings vs sentence-transformers: not measured (no transformer.json)")
 
     for d in (bm25, q_bm25, pipeline, q_fused):
         for key in [k for k in d if k.endswith("top10")]:
@@ -364,7 +364,7 @@ def main():
         "quarry": {"bm25": q_bm25, "hnsw": q_hnsw, "fused": q_fused, "index_build_seconds": quarry["index_build_seconds"]},
         "peers": {"bm25": bm25, "dense": dense, "pipeline": pipeline},
         "transformer_embeddings": transformer
-        or {"status": "slot: the transformer encoder's bench writes transformer.json beside this file"},
+        or {"status": "not measured: benches/peers/transformer.py writes transformer.json beside this file"},
     }
     with open(out_path, "w") as f:
         json.dump(result, f, indent=1)

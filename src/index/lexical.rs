@@ -668,7 +668,9 @@ mod tests {
     /// as `forall` is), queried as goals are (a few rare symbols among common ones), each
     /// list's scores are those of tantivy's own `BooleanQuery` of boosted `TermQuery`s
     /// (tantivy 0.27, the reference), ranked by its `TopDocs` and then restricted to the
-    /// list's filter.
+    /// list's filter. Its 3,000 documents are three of the build's batches, which the two
+    /// indexing threads share between their segments: the scores read across segments are
+    /// checked here too (segment counts are tantivy's choice, so the test does not fix one).
     #[test]
     fn picks_are_tantivys_boolean_query_ranking_under_each_filter() {
         let mut words: Vec<String> = [
