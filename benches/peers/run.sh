@@ -33,6 +33,9 @@ if [ ! -x "$out/st-venv/bin/python" ]; then
   python3 -m venv "$out/st-venv"
 fi
 "$out/st-venv/bin/pip" install --quiet --disable-pip-version-check sentence-transformers
+# The bench skips (exit 0) when the model does not load: clear its old figures so that
+# transformer.py can only read one measured now.
+rm -rf "${CARGO_TARGET_DIR:-target}/criterion/transformer"
 QUARRY_TRANSFORMER_MODEL="$PWD/$model_dir" cargo bench --bench transformer --quiet -- all-MiniLM
 "$out/st-venv/bin/python" benches/peers/transformer.py "$model_dir" \
   "${CARGO_TARGET_DIR:-target}/criterion" "$out/transformer.json"

@@ -264,10 +264,10 @@ async fn admit(State(state): State<Shared>, req: Request, next: Next) -> Respons
 /// Handing a ranking of a few hundred microseconds to a blocking thread and the answer back
 /// cost more than the ranking: two thread switches per request. Ranked where it was read,
 /// the stdlib load test went from 2,386 to 3,367 requests/s, medians of five runs
-/// (docs/performance.md, "HTTP server"). Work that may be long (batches, long goals) still goes to a blocking thread, so
-/// that the runtime's threads keep answering other connections meanwhile. A panic in the
-/// work is answered 500 either way. The worker slot is released when the work ends, even
-/// if the request gave up waiting for it (time limit).
+/// (docs/performance.md, "HTTP server"). Work that may be long (batches, long goals) still
+/// goes to a blocking thread, so that the runtime's threads keep answering other
+/// connections meanwhile. A panic in the work is answered 500 either way. The worker slot
+/// is released when the work ends, even if the request gave up waiting for it (time limit).
 async fn on_worker<T: Send + 'static>(
     state: &AppState,
     short: bool,
