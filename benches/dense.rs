@@ -1,6 +1,9 @@
 //! The dense signal's speed: encoding a goal, exact and HNSW search over 20,000 premise
 //! vectors of dimension 256, and one training epoch on synthetic ring-buffer and scheduler
 //! lemmas. The HNSW build time and its recall@10 against the exact scan are printed once.
+//! `hnsw/build/*` times building the graph over 20,000 vectors of dimension 64 (the size of
+//! the Coq standard library at the dimension quarry builds with), one point at a time and
+//! on rayon's threads, and prints each graph's recall@10 at ef_search 64.
 //! Figures and the command are in the report and docs: `cargo bench --bench dense`.
 
 use std::hint::black_box;
@@ -73,6 +76,39 @@ fn bench_search(c: &mut Criterion) {
     });
 }
 
+fn bench_build(c: &mut Criterion) {
+    let (vectors, queries) = match clustered_vectors_and_queries(11, 20_000, 300, 64, 400, 0.9) {
+        Ok(v) => v,
+        Err(e) => return eprintln!("skipping the HNSW build bench: {e}"),
+    };
+    let queries: Vec<Vec<f32>> = queries.iter().map(<[f32]>::to_vec).collect();
+    let mut group = c.benchmark_group("hnsw/build");
+    group.sample_size(10);
+    for (name, parallel_build) in [("sequential", false), ("parallel", true)] {
+        let params = HnswParams {
+            parallel_build,
+            ..HnswParams::default()
+        };
+        match HnswIndex::build(vectors.clone(), params) {
+            Ok(mut index) => {
+                index.set_ef_search(64);
+                let recall = recall_against_exact(&index, &queries, 10);
+                eprintln!(
+                    "HNSW build {name}, 20,000 × 64: recall@10 {:.4} at ef_search 64",
+                    recall.recall
+                );
+            }
+            Err(e) => return eprintln!("skipping the HNSW build bench: {e}"),
+        }
+        group.bench_function(format!("{name}/20k-x-64"), |b| {
+            b.iter(|| {
+                HnswIndex::build(black_box(vectors.clone()), params).expect("params built once")
+            })
+        });
+    }
+    group.finish();
+}
+
 fn bench_train(c: &mut Criterion) {
     let (data, _) = ring_and_scheduler_task(3, 1_000, 1_500, 0);
     let config = TrainConfig {
@@ -95,5 +131,5 @@ fn bench_train(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(dense, bench_encode, bench_search, bench_train);
+criterion_group!(dense, bench_encode, bench_search, bench_build, bench_train);
 criterion_main!(dense);

@@ -8,7 +8,7 @@
 //!   ([`LearnedEncoder::to_bytes`]), or [`transformer::TransformerEncoder`], a pretrained
 //!   BERT sentence-embedding model read from a folder and run with candle;
 //! - a [`VectorIndex`] over premise vectors: an exact cosine scan for small libraries, an
-//!   HNSW graph (built with `hnsw_rs`) for large ones, saved into and loaded from an index
+//!   HNSW graph (our own build, see `hnsw_build`) for large ones, saved into and loaded from an index
 //!   generation ([`VectorIndex::save`], [`VectorIndex::load`]).
 //!
 //! It deliberately does not tokenize, read source files, fuse its scores with other
@@ -41,6 +41,7 @@ mod codec;
 pub mod exact;
 pub mod features;
 pub mod hnsw;
+mod hnsw_build;
 pub mod index;
 pub mod learned;
 mod loss;
