@@ -40,8 +40,9 @@ pub struct HnswParams {
     /// 0.992 at 200 and 0.998 at 400 (`tests/dense_stdlib.rs`, 500 statement goals, on
     /// graphs `hnsw_rs` built; 0.991 at 200 on our builder's graph).
     pub ef_search: usize,
-    /// Insert points from rayon's threads: about as many times faster as there are cores, but the graph then depends on thread timing, so
-    /// two builds of the same vectors differ. Default false: points go in one by one in id
+    /// Insert points from rayon's threads: about as many times faster as there are cores,
+    /// but the graph then depends on thread timing, so two builds of the same vectors
+    /// differ. Default false: points go in one by one in id
     /// order and a build is reproducible.
     pub parallel_build: bool,
 }
@@ -375,9 +376,9 @@ mod tests {
         }
     }
 
-    /// Recall@10 against the exact scan of a graph built by `hnsw_rs` 0.3 (crates.io, an
-    /// independent implementation of the same paper) on the same vectors, M and
-    /// ef_construction, searched by the same beam: our builder's graph must be as good.
+    /// The graph `hnsw_rs` 0.3 (crates.io, an independent implementation of the same
+    /// paper) builds on `vectors` with the same M and ef_construction, one point at a time,
+    /// read out into our arrays so the same beam searches both graphs.
     fn hnsw_rs_graph(vectors: &VectorSet, params: HnswParams) -> HnswIndex {
         use hnsw_rs::anndists::dist::Distance;
         use hnsw_rs::hnsw::Hnsw;
@@ -413,6 +414,8 @@ mod tests {
         HnswIndex::from_adjacency(vectors.clone(), params, entry, &adjacency)
     }
 
+    /// Recall@10 against the exact scan: our builder's graph must be as good as
+    /// `hnsw_rs`'s on the same vectors.
     #[test]
     fn recall_matches_hnsw_rs_on_the_same_vectors() {
         // Broad clusters in 32 dimensions: hard enough that neither graph is perfect at a
