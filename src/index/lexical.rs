@@ -671,6 +671,9 @@ mod tests {
     /// list's filter. Its 3,000 documents are three of the build's batches, which the two
     /// indexing threads share between their segments: the scores read across segments are
     /// checked here too (segment counts are tantivy's choice, so the test does not fix one).
+    /// The lists are picked twice: as a ranking asks (the default pruning) and with the
+    /// common terms' pruning tried before every term; both must be tantivy's, and the second
+    /// must have left postings unread on some queries, or it tested nothing.
     #[test]
     fn picks_are_tantivys_boolean_query_ranking_under_each_filter() {
         let mut words: Vec<String> = [
@@ -721,6 +724,7 @@ mod tests {
         for i in (0..decls.len()).step_by(3) {
             every_third.insert(DeclId(i as u32));
         }
+        let mut pruned_queries = 0;
         for _ in 0..30 {
             // As a goal is: a few rare symbols among common ones.
             let rare = 2 + (next() * 3.0) as usize;
@@ -744,7 +748,15 @@ mod tests {
             let theirs = tantivy_ranking(&idx, &terms, &boosts, decls.len());
             // Both lists picked while scoring, as a ranking asks for them, are the same.
             let together = idx.top_lists(&terms, &boosts, &wanted).unwrap();
+            let (pruned, work) = idx
+                .top_lists_with(&terms, &boosts, &wanted, scoring::Pruning::EVERY_TERM)
+                .unwrap();
+            if work.pruned {
+                assert!(work.postings_skipped > 0, "{work:?}");
+                pruned_queries += 1;
+            }
             assert_eq!(together.len(), 2);
+            assert_eq!(pruned, together, "pruned at every term, {terms:?}");
             for ((filter, limit), picked) in wanted.into_iter().zip(together) {
                 let ours = scores.top(filter, limit);
                 assert_eq!(picked, ours, "picked while scoring, {terms:?}");
@@ -767,6 +779,10 @@ mod tests {
                 }
             }
         }
+        assert!(
+            pruned_queries >= 5,
+            "the pruning cut the common terms on {pruned_queries} of 30 queries"
+        );
     }
 
     /// Scores are the same whatever the thread scored before: the accumulator a thread

@@ -11,6 +11,9 @@
 //! eagerly into one sparse table is the idea of Lù's BM25S (2024); Anh and Moffat's
 //! impact-ordered indexes (2002) store precomputed contributions the same way.
 //!
+//! Each row also keeps its largest impact, the bound [`super::scoring`]'s pruning of the
+//! common terms needs.
+//!
 //! It costs memory: 8 bytes per (term, declaration) pair, about the size of the `text`
 //! field's postings (docs/performance.md, "Lexical ranking"). It does not rank nor filter.
 
@@ -59,6 +62,19 @@ pub struct ImpactTable {
     starts: Vec<usize>,
     decls: Vec<u32>,
     impacts: Vec<f32>,
+    /// Row r's largest impact: the most its term can add to any declaration's score.
+    maxima: Vec<f32>,
+}
+
+/// One term's row of an [`ImpactTable`].
+#[derive(Clone, Copy, Debug)]
+pub struct ImpactRow<'a> {
+    /// The declarations the term occurs in, increasing.
+    pub decls: &'a [u32],
+    /// The term's impact on each of them.
+    pub impacts: &'a [f32],
+    /// The largest of `impacts` (0 for an empty row).
+    pub max: f32,
 }
 
 impl ImpactTable {
@@ -67,19 +83,25 @@ impl ImpactTable {
         &self.boosts
     }
 
-    /// The declarations `text` occurs in and its impact on each, by increasing declaration
-    /// (empty for a term no field with a non-zero boost holds).
-    pub fn postings(&self, text: &str) -> (&[u32], &[f32]) {
+    /// The row of `text`, with its largest impact (an empty row for a term no field with
+    /// a non-zero boost holds).
+    pub fn row(&self, text: &str) -> ImpactRow<'_> {
+        let empty = ImpactRow {
+            decls: &[],
+            impacts: &[],
+            max: 0.0,
+        };
         let Some(&row) = self.rows.get(text) else {
-            return (&[], &[]);
+            return empty;
         };
         let row = row as usize;
         match (self.starts.get(row), self.starts.get(row + 1)) {
-            (Some(&a), Some(&b)) => (
-                self.decls.get(a..b).unwrap_or(&[]),
-                self.impacts.get(a..b).unwrap_or(&[]),
-            ),
-            _ => (&[], &[]),
+            (Some(&a), Some(&b)) => ImpactRow {
+                decls: self.decls.get(a..b).unwrap_or(&[]),
+                impacts: self.impacts.get(a..b).unwrap_or(&[]),
+                max: self.maxima.get(row).copied().unwrap_or(0.0),
+            },
+            _ => empty,
         }
     }
 }
@@ -102,6 +124,7 @@ impl LexicalIndex {
         }
         let mut rows = HashMap::with_capacity(by_term.len());
         let mut starts = vec![0usize];
+        let mut maxima = Vec::with_capacity(by_term.len());
         let total: usize = by_term.values().map(Vec::len).sum();
         let mut decls = Vec::with_capacity(total);
         let mut impacts = Vec::with_capacity(total);
@@ -122,6 +145,14 @@ impl LexicalIndex {
                 impacts.push(impact);
             }
             rows.insert(text, (starts.len() - 1) as u32);
+            let first = starts.last().copied().unwrap_or(0);
+            maxima.push(
+                impacts
+                    .get(first..)
+                    .unwrap_or(&[])
+                    .iter()
+                    .fold(0f32, |m, &x| m.max(x)),
+            );
             starts.push(decls.len());
         }
         decls.shrink_to_fit();
@@ -132,6 +163,7 @@ impl LexicalIndex {
             starts,
             decls,
             impacts,
+            maxima,
         })
     }
 

@@ -54,6 +54,24 @@ impl<'a> TopPick<'a> {
         self.bar = self.heap.peek().map_or(self.bar, |worst| worst.1);
     }
 
+    /// The score a pair must beat to get into this list as it stands: the worst kept
+    /// score once `limit` pairs are kept, −∞ before, +∞ when the list wants nothing. A
+    /// list's final cut-off is never below it when later pairs only score higher.
+    pub(crate) fn floor(&self) -> f32 {
+        if self.limit == 0 {
+            f32::INFINITY
+        } else if self.heap.len() < self.limit {
+            f32::NEG_INFINITY
+        } else {
+            self.bar
+        }
+    }
+
+    /// An empty pick with the same filter and length.
+    pub(crate) fn emptied(&self) -> TopPick<'a> {
+        TopPick::new(self.filter, self.limit)
+    }
+
     /// The picked pairs, best first.
     pub(crate) fn into_sorted(self) -> Vec<(DeclId, f32)> {
         self.heap
