@@ -321,14 +321,13 @@ fn score_into(
                 collect(DeclId(d), s);
             }
         }
-        for (word_index, word) in touched.iter_mut().take(words).enumerate() {
-            let mut bits = std::mem::take(word);
-            while bits != 0 {
-                if let Some(s) = scores.get_mut(word_index * 64 + bits.trailing_zeros() as usize) {
-                    *s = 0.0;
-                }
-                bits &= bits - 1;
+        for d in marked(touched, words) {
+            if let Some(s) = scores.get_mut(d) {
+                *s = 0.0;
             }
+        }
+        if let Some(bits) = touched.get_mut(..words) {
+            bits.fill(0);
         }
         return work;
     }
