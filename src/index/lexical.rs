@@ -340,6 +340,10 @@ impl LexicalIndex {
 
     /// The BM25 top `limit` declarations for `terms`, among those `filter` allows, best
     /// first, with their scores. Terms are matched in every field with a non-zero boost.
+    ///
+    /// One list of [`LexicalIndex::top_lists`], so the lightest terms may be pruned: the
+    /// list is the one [`LexicalScores::top`] picks from all the scores, without keeping
+    /// them.
     pub fn search(
         &self,
         terms: &[QueryTerm],
@@ -350,7 +354,8 @@ impl LexicalIndex {
         if limit == 0 {
             return Ok(Vec::new());
         }
-        Ok(self.scores(terms, boosts)?.top(filter, limit))
+        let mut lists = self.top_lists(terms, boosts, &[(filter, limit)])?;
+        Ok(lists.pop().unwrap_or_default())
     }
 
     /// The at most `keep` terms of `terms` that weigh most in BM25's sum: each term's
