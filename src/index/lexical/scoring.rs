@@ -379,7 +379,7 @@ fn add_row(w: &WeightedRow, scores: &mut [f32], touched: &mut [u64], declaration
 /// A row holding at least one declaration in this many is added keeping its bit word in
 /// a register. BM25 queries of the Coq standard library's goals went from 18.6–20.3k to
 /// 21.4–22.3k a second on one thread; 4 and 64 measured the same as 16 (docs/performance.md,
-/// "Lexical ranking").
+/// "Side by side", the BM25 queries).
 const DENSE_ROW: usize = 16;
 
 /// Whether reading rows[i..j] in full and skipping rows[j..] leaves `payoff` times the
