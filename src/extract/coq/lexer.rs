@@ -160,11 +160,10 @@ pub fn lex(text: &str) -> Lexed {
                 sentence_first = lx.tokens.len();
                 continue;
             }
+            // `..` and longer runs are one token. The `.(` of a projection `x.(f)` is two,
+            // `.` and `(`, so that every bracket counter sees the `(` its `)` closes.
             i += 1;
             while bytes.get(i) == Some(&b'.') {
-                i += 1;
-            }
-            if i == start + 1 && bytes.get(i) == Some(&b'(') {
                 i += 1;
             }
             kind = TokenKind::Punct;
@@ -319,7 +318,8 @@ mod tests {
                 "Nat.add_comm",
                 "=",
                 "x",
-                ".(",
+                ".",
+                "(",
                 "f",
                 ")",
                 "..",

@@ -75,6 +75,39 @@ fn only_used_section_variables_become_hypotheses() {
     );
 }
 
+/// A projection `x.(f)` inside a constructor's type must not hide the constructors after
+/// it. Found on iris 4.0's `heap_lang/lang.v` (Debian's libcoq-iris), whose `.glob`, written
+/// by coqc, defines `FreeS`, `LoadS` and the rest after `AllocNS`'s `σ.(heap)`; quarry
+/// lost them when `.(` was one token that no bracket counter opened.
+#[test]
+fn projections_keep_the_brackets_balanced() {
+    let text = "Record ring := { cap : nat; used : nat }.\n\
+                Inductive step : ring -> ring -> Prop :=\n\
+                | PushS r : r.(used) < r.(cap) -> step r r\n\
+                | PopS r : 0 < used r -> step r r.\n\
+                Lemma room (r : ring) : r.(used) < r.(cap) -> 0 < cap r.\n\
+                Proof. intros H. exact (PushS r H). Qed.\n";
+    let e = extract("T", text);
+    let got: Vec<&str> = e.declarations.iter().map(|d| d.name.as_str()).collect();
+    assert_eq!(
+        got,
+        [
+            "T.ring",
+            "T.Build_ring",
+            "T.cap",
+            "T.used",
+            "T.step",
+            "T.PushS",
+            "T.PopS",
+            "T.room"
+        ]
+    );
+    let room = &e.declarations[7];
+    // The fields read by projection are references, and `r` stays a local after them.
+    assert_eq!(refs(room).0, ["ring", "used", "cap", "cap"]);
+    assert_eq!(refs(room).1, ["PushS"]);
+}
+
 #[test]
 fn inductives_records_and_classes_declare_their_parts() {
     let text =
