@@ -88,8 +88,11 @@ pub fn notation(r: &Reader, infix: bool, range: Range<usize>) -> Option<Draft> {
         }
         i += 1;
     }
-    // `Notation old := new (only parsing)`: an alias kept for old names (coqdoc anchors
-    // none, and coqc's `.glob` records uses of it as uses of `new`): not a declaration.
+    // `Notation old := new (only parsing)`, or an abbreviation of a term: not a
+    // declaration here. It is never printed in a goal, and the kernel term of a proof
+    // that uses it holds what it unfolds to; coqdoc anchors none. (coqc 8.16 does record
+    // it in `.glob` as an `abbrev`, and its uses as uses of it: a use is an unresolved
+    // reference for quarry.)
     let only_parsing =
         (term_end..range.end).any(|k| r.word(k) == "only" && r.word(k + 1) == "parsing");
     if first.kind == TokenKind::Ident && only_parsing {
