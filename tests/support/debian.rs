@@ -72,22 +72,77 @@ fn find_stdlib() -> Result<PathBuf, String> {
             ))
         };
     }
+    unpack("libcoq-stdlib", &unpacked)?;
+    theories_in(&unpacked).ok_or_else(|| "the unpacked package has no theories folder".into())
+}
+
+/// Downloads Debian's `package` (`apt-get download`, no root needed) into
+/// `target/debian/downloads` and unpacks it into `into` (`dpkg-deb -x`).
+fn unpack(package: &str, into: &Path) -> Result<(), String> {
     let dl = target_dir().join("debian/downloads");
     std::fs::create_dir_all(&dl).map_err(|e| e.to_string())?;
     run(Command::new("apt-get")
-        .args(["download", "libcoq-stdlib"])
+        .args(["download", package])
         .current_dir(&dl))?;
+    let prefix = format!("{package}_");
     let deb = std::fs::read_dir(&dl)
         .map_err(|e| e.to_string())?
         .flatten()
         .map(|e| e.path())
         .find(|p| {
             p.file_name()
-                .is_some_and(|n| n.to_string_lossy().starts_with("libcoq-stdlib"))
+                .is_some_and(|n| n.to_string_lossy().starts_with(&prefix))
         })
-        .ok_or("apt-get download left no libcoq-stdlib .deb")?;
-    run(Command::new("dpkg-deb").arg("-x").arg(&deb).arg(&unpacked))?;
-    theories_in(&unpacked).ok_or_else(|| "the unpacked package has no theories folder".into())
+        .ok_or_else(|| format!("apt-get download left no {package} .deb"))?;
+    run(Command::new("dpkg-deb").arg("-x").arg(&deb).arg(into))
+}
+
+/// Where Debian installs a Coq library that is not the standard library.
+const USER_CONTRIB: &str = "/usr/lib/ocaml/coq/user-contrib";
+
+/// The folder `user-contrib/<folder>` of Debian's Coq library `package` (say
+/// `libcoq-stdpp`, folder `stdpp`): installed, else unpacked into `target/debian/`,
+/// installed with `apt-get` under `CI=true`; `None` (printed reason) outside CI when it
+/// cannot be had. These packages ship their sources with the `.glob` files coqc wrote when
+/// Debian built them.
+pub fn coq_user_contrib(package: &str, folder: &str) -> Option<PathBuf> {
+    let find = || -> Result<PathBuf, String> {
+        let system = Path::new(USER_CONTRIB).join(folder);
+        if system.is_dir() {
+            return Ok(system);
+        }
+        let unpacked = target_dir().join("debian").join(package);
+        let there = unpacked
+            .join(USER_CONTRIB.trim_start_matches('/'))
+            .join(folder);
+        if there.is_dir() {
+            return Ok(there);
+        }
+        if in_ci() {
+            apt_install(&[package])?;
+            return if system.is_dir() {
+                Ok(system)
+            } else {
+                Err(format!(
+                    "installed {package} but `{}` is missing",
+                    system.display()
+                ))
+            };
+        }
+        unpack(package, &unpacked)?;
+        if there.is_dir() {
+            Ok(there)
+        } else {
+            Err(format!(
+                "the unpacked {package} has no `{}`",
+                there.display()
+            ))
+        }
+    };
+    match find() {
+        Ok(p) => Some(p),
+        Err(why) => unavailable(&format!("Debian's {package}"), &why),
+    }
 }
 
 /// The Coq standard library's `theories` folder (logical prefix `Coq`), or `None` (printed
