@@ -19,10 +19,11 @@ mod support;
 
 use std::collections::{BTreeMap, HashMap, HashSet};
 use std::path::{Path, PathBuf};
+use std::sync::OnceLock;
 
 use quarry::extract::{build_library, BuildOptions, CoqPrefix};
-use quarry::library::DeclKind;
-use support::debian::coq_user_contrib;
+use quarry::library::{DeclKind, Library};
+use support::debian::{coq_stdlib, coq_user_contrib};
 
 /// The `.glob` kinds of what quarry models as a declaration (theorems, definitions,
 /// instances, inductives, records, constructors, projections, axioms).
@@ -71,30 +72,46 @@ fn defined(glob: &Path) -> Vec<(String, String)> {
     out
 }
 
+/// stdpp's and iris's folders and quarry's library of them with the standard library, as
+/// their users load them (`-R stdpp stdpp -R iris iris`, the stdlib as `Coq`).
+fn libraries() -> Option<&'static (PathBuf, PathBuf, Library)> {
+    static BUILT: OnceLock<Option<(PathBuf, PathBuf, Library)>> = OnceLock::new();
+    BUILT
+        .get_or_init(|| {
+            let theories = coq_stdlib()?;
+            let stdpp = coq_user_contrib("libcoq-stdpp", "stdpp")?;
+            let iris = coq_user_contrib("libcoq-iris", "iris")?;
+            let prefix = |logical: &str, dir: &Path| CoqPrefix {
+                logical: logical.into(),
+                dir: dir.to_path_buf(),
+            };
+            let opts = BuildOptions {
+                roots: vec![theories.clone(), stdpp.clone(), iris.clone()],
+                coq_prefixes: vec![
+                    prefix("Coq", &theories),
+                    prefix("stdpp", &stdpp),
+                    prefix("iris", &iris),
+                ],
+                threads: None,
+                progress: false,
+            };
+            let library =
+                build_library(&opts).unwrap_or_else(|e| panic!("stdlib, stdpp and iris: {e}"));
+            Some((stdpp, iris, library))
+        })
+        .as_ref()
+}
+
+/// Whether `name` is in stdpp or iris (not the standard library).
+fn ours_to_check(name: &str) -> bool {
+    name.starts_with("stdpp.") || name.starts_with("iris.")
+}
+
 #[test]
 fn stdpp_and_iris_declarations_match_coqc_glob() {
-    let Some(stdpp) = coq_user_contrib("libcoq-stdpp", "stdpp") else {
+    let Some((stdpp, iris, library)) = libraries() else {
         return;
     };
-    let Some(iris) = coq_user_contrib("libcoq-iris", "iris") else {
-        return;
-    };
-    let opts = BuildOptions {
-        roots: vec![stdpp.clone(), iris.clone()],
-        coq_prefixes: vec![
-            CoqPrefix {
-                logical: "stdpp".into(),
-                dir: stdpp.clone(),
-            },
-            CoqPrefix {
-                logical: "iris".into(),
-                dir: iris.clone(),
-            },
-        ],
-        threads: None,
-        progress: false,
-    };
-    let library = build_library(&opts).unwrap_or_else(|e| panic!("stdpp and iris: {e}"));
     let ours: HashMap<&str, DeclKind> = library
         .declarations
         .iter()
@@ -102,8 +119,8 @@ fn stdpp_and_iris_declarations_match_coqc_glob() {
         .collect();
 
     let mut files = Vec::new();
-    globs(&stdpp, &mut files);
-    globs(&iris, &mut files);
+    globs(stdpp, &mut files);
+    globs(iris, &mut files);
     assert!(
         files.len() >= 200,
         "expected the packages' .glob files, found {}",
@@ -162,7 +179,11 @@ fn stdpp_and_iris_declarations_match_coqc_glob() {
     let added: Vec<(&str, DeclKind)> = library
         .declarations
         .iter()
-        .filter(|d| d.kind != DeclKind::Notation && !glob_names.contains(d.name.as_str()))
+        .filter(|d| {
+            d.kind != DeclKind::Notation
+                && ours_to_check(&d.name)
+                && !glob_names.contains(d.name.as_str())
+        })
         .map(|d| (d.name.as_str(), d.kind))
         .collect();
     println!(
@@ -177,5 +198,146 @@ fn stdpp_and_iris_declarations_match_coqc_glob() {
     assert!(
         not_constructors.is_empty(),
         "declarations coqc does not know: {not_constructors:?}"
+    );
+}
+
+/// `.glob` kinds that name no declaration: bound variables, notations, modules, sections,
+/// abbreviations (which quarry does not keep, see the module comment).
+fn names_a_declaration(kind: &str) -> bool {
+    !matches!(
+        kind,
+        "var" | "binder" | "not" | "lib" | "mod" | "modtype" | "sec" | "modparam" | "abbrev"
+    )
+}
+
+/// Per module: (start byte, target's qualified name) of every reference its `.glob` file
+/// records to a name that may be a declaration.
+fn references(files: &[PathBuf]) -> HashMap<String, Vec<(u32, String)>> {
+    let mut out: HashMap<String, Vec<(u32, String)>> = HashMap::new();
+    for f in files {
+        let text = std::fs::read_to_string(f)
+            .unwrap_or_else(|e| panic!("cannot read `{}`: {e}", f.display()));
+        let mut module = String::new();
+        for line in text.lines() {
+            if let Some(m) = line.strip_prefix('F') {
+                module = m.trim().to_string();
+                continue;
+            }
+            let Some(rest) = line.strip_prefix('R') else {
+                continue;
+            };
+            let parts: Vec<&str> = rest.split_whitespace().collect();
+            let [span, lib, path, name, kind] = parts[..] else {
+                continue;
+            };
+            let Some(start) = span.split(':').next().and_then(|s| s.parse().ok()) else {
+                continue;
+            };
+            if !names_a_declaration(kind) {
+                continue;
+            }
+            let target = if path == "<>" {
+                format!("{lib}.{name}")
+            } else {
+                format!("{lib}.{path}.{name}")
+            };
+            out.entry(module.clone()).or_default().push((start, target));
+        }
+    }
+    out
+}
+
+/// quarry's proof edges of every stdpp and iris theorem against the references coqc
+/// recorded inside its proof (byte spans of the same files the `.glob` files were written
+/// for), counted on targets that are quarry declarations. Measured 97.22 % precision and
+/// 95.05 % recall when written (4 December 2026); before modules' `Export`s were followed
+/// and re-exports opened before the library that makes them, 96.77 % and 89.96 %.
+#[test]
+fn stdpp_and_iris_proof_edges_match_coqc_glob() {
+    let Some((stdpp, iris, library)) = libraries() else {
+        return;
+    };
+    let mut files = Vec::new();
+    globs(stdpp, &mut files);
+    globs(iris, &mut files);
+    let refs = references(&files);
+    let names: HashSet<&str> = library
+        .declarations
+        .iter()
+        .map(|d| d.name.as_str())
+        .collect();
+    let (mut tp, mut quarry_edges, mut glob_edges, mut no_source, mut proofs) =
+        (0usize, 0usize, 0usize, 0usize, 0usize);
+    // Per target: how often, and the first proof it was found in.
+    let mut extra: BTreeMap<String, (usize, String)> = BTreeMap::new();
+    let mut missed: BTreeMap<String, (usize, String)> = BTreeMap::new();
+    for d in &library.declarations {
+        let Some(span) = d.proof_span else { continue };
+        let module = library.module(d.module).name.as_str();
+        let Some(in_module) = refs.get(module) else {
+            continue;
+        };
+        proofs += 1;
+        let mut glob: HashSet<&str> = HashSet::new();
+        for (start, target) in in_module {
+            if *start < span.start.byte || *start >= span.end.byte || *target == d.name {
+                continue;
+            }
+            if names.contains(target.as_str()) {
+                glob.insert(target);
+            } else {
+                no_source += 1;
+            }
+        }
+        let quarry: HashSet<&str> = library
+            .graph
+            .premises(d.id)
+            .map(|t| library.declaration(t).name.as_str())
+            .collect();
+        quarry_edges += quarry.len();
+        glob_edges += glob.len();
+        tp += quarry.intersection(&glob).count();
+        for q in quarry.difference(&glob) {
+            extra.entry(q.to_string()).or_insert((0, d.name.clone())).0 += 1;
+        }
+        for g in glob.difference(&quarry) {
+            missed.entry(g.to_string()).or_insert((0, d.name.clone())).0 += 1;
+        }
+    }
+    let precision = tp as f64 / quarry_edges.max(1) as f64;
+    let recall = tp as f64 / glob_edges.max(1) as f64;
+    println!("stdpp + iris: proof edges of {proofs} proofs");
+    println!(
+        "  precision {:.2} % ({tp} of {quarry_edges} quarry edges are coqc references)",
+        100.0 * precision
+    );
+    println!(
+        "  recall    {:.2} % ({tp} of {glob_edges} coqc references to declarations)",
+        100.0 * recall
+    );
+    println!("  apart: {no_source} coqc references to names that are no quarry declaration");
+    let top = |m: &BTreeMap<String, (usize, String)>| {
+        let mut v: Vec<(&String, &(usize, String))> = m.iter().collect();
+        v.sort_by(|a, b| b.1 .0.cmp(&a.1 .0).then(a.0.cmp(b.0)));
+        v.into_iter()
+            .take(12)
+            .map(|(n, (c, first))| format!("{n} ×{c} (first in {first})"))
+            .collect::<Vec<_>>()
+    };
+    println!("  most frequent extra targets: {:?}", top(&extra));
+    println!("  most frequent missed targets: {:?}", top(&missed));
+    assert!(
+        proofs > 5_000,
+        "too few proofs matched to .glob files: {proofs}"
+    );
+    assert!(
+        precision >= 0.97,
+        "proof edge precision {:.2} % < 97 %",
+        100.0 * precision
+    );
+    assert!(
+        recall >= 0.945,
+        "proof edge recall {:.2} % < 94.5 %",
+        100.0 * recall
     );
 }

@@ -143,6 +143,20 @@ pub struct FileExtraction {
     pub scopes: Vec<Scope>,
     /// Problems met; what could be read is still in `declarations`.
     pub diagnostics: Vec<Diagnostic>,
+    /// Coq's `Export M` inside a module or at a file's top level, and `Module Export M`:
+    /// what importing that module (or file) opens besides it.
+    pub module_exports: Vec<ModuleExport>,
+}
+
+/// One Coq `Export`: importing `module` also imports `target`.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ModuleExport {
+    /// The fully qualified module (or file module) that exports.
+    pub module: String,
+    /// The exported module as written (`bi.derived_laws.bi`) or fully qualified.
+    pub target: String,
+    /// The scope `target` is resolved in (`scopes[scope]`).
+    pub scope: usize,
 }
 
 /// Extracts one file's text written in `language`, whose module is `module`

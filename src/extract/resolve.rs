@@ -60,6 +60,9 @@ pub struct NameTable {
     /// declaration names below a file module) with the index of their file module, keyed
     /// by their last component.
     module_paths: HashMap<String, Vec<(String, u32)>>,
+    /// Per module path (or file module): the modules its `Export`s open, resolved, in
+    /// order (Coq; see [`super::ModuleExport`]).
+    module_exports: HashMap<String, Vec<String>>,
 }
 
 impl NameTable {
@@ -219,8 +222,16 @@ impl<'a> ResolveEnv<'a> {
             .collect()
     }
 
+    /// The modules that importing module `path` imports too (its `Export`s), in order.
+    pub fn exports_of(&self, path: &str) -> &[String] {
+        self.table
+            .module_exports
+            .get(path)
+            .map_or(&[], Vec::as_slice)
+    }
+
     /// Modules whose short names the file's imports open, in the order they were opened
-    /// (later ones shadow earlier ones), each followed by the modules it re-exports.
+    /// (later ones shadow earlier ones), each after the modules it re-exports.
     pub fn opened_modules(&self) -> impl Iterator<Item = &str> + '_ {
         self.opened
             .iter()
@@ -289,6 +300,11 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
     };
     for (fi, f) in files.iter().enumerate() {
         table.insert_module_path(&f.module_name, fi as u32);
+        // A module that only re-exports others declares nothing, but is a module all the
+        // same (iris's `Module Import bi. Export bi.interface.bi. ... End bi.`).
+        for e in &f.extraction.module_exports {
+            table.insert_module_path(&e.module, fi as u32);
+        }
         for d in &f.extraction.declarations {
             let mut prefix = d.name.as_str();
             while let Some((head, _)) = split_last_dot(prefix) {
@@ -366,6 +382,36 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
             order
         })
         .collect();
+
+    // What each module's `Export`s open, resolved in the scope they were written in.
+    let mut module_exports: HashMap<String, Vec<String>> = HashMap::new();
+    for (fi, f) in files.iter().enumerate() {
+        if f.extraction.module_exports.is_empty() {
+            continue;
+        }
+        let env = ResolveEnv {
+            table: &table,
+            file: fi as u32,
+            module: fi as u32,
+            visible: &visible[fi],
+            opened: &opened[fi],
+        };
+        let default_scope = Scope::default();
+        for e in &f.extraction.module_exports {
+            let scope = f.extraction.scopes.get(e.scope).unwrap_or(&default_scope);
+            let target = match f.file.language {
+                Language::Coq => super::coq::resolve_module_in(&e.target, scope, &env),
+                Language::Lean => None,
+            };
+            if let Some(target) = target.filter(|t| *t != e.module) {
+                module_exports
+                    .entry(e.module.clone())
+                    .or_default()
+                    .push(target);
+            }
+        }
+    }
+    table.module_exports = module_exports;
 
     // Resolve every reference, file by file in parallel; results keep the file order.
     struct FileEdges {
@@ -516,18 +562,21 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
     }
 }
 
-/// Appends module `m` and, depth first, the modules it re-exports (once each).
+/// Appends, depth first, the modules `m` re-exports and then `m` itself (once each): as in
+/// coqc, a library's `Require Export`s are opened before its own names, which shadow theirs
+/// (`Import uPred` in iris names the `uPred` of `base_logic`, which re-exports the `uPred`
+/// modules of `bi` and `derived`).
 fn push_with_exports(m: u32, imports: &[Vec<Import>], order: &mut Vec<u32>, seen: &mut [bool]) {
     if seen[m as usize] {
         return;
     }
     seen[m as usize] = true;
-    order.push(m);
     for imp in imports[m as usize].iter().filter(|i| i.export) {
         if let Some(ModuleId(t)) = imp.resolved {
             push_with_exports(t, imports, order, seen);
         }
     }
+    order.push(m);
 }
 
 #[cfg(test)]

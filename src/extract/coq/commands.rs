@@ -116,11 +116,12 @@ impl<'a> Extractor<'a> {
     pub(super) fn module(&mut self, tokens: &[lexer::Token], mut i: usize) {
         let text = self.text;
         let word = |i: usize| tokens.get(i).map_or("", |t| t.text(text));
-        let mut import_at_end = false;
+        let (mut import_at_end, mut export_at_end) = (false, false);
         if word(i) == "Type" {
             i += 1;
         } else if matches!(word(i), "Import" | "Export") {
             import_at_end = true;
+            export_at_end = word(i) == "Export";
             i += 1;
         }
         let Some(name) = tokens.get(i).filter(|t| t.kind == TokenKind::Ident) else {
@@ -139,6 +140,7 @@ impl<'a> Extractor<'a> {
             variables: Vec::new(),
             locals: Vec::new(),
             import_at_end,
+            export_at_end,
         });
         self.refresh_scope();
     }
@@ -149,9 +151,13 @@ impl<'a> Extractor<'a> {
             return;
         };
         let closed: Vec<Frame> = self.frames.drain(at..).collect();
+        let mut exported = None;
         if let Some(first) = closed.first() {
             if first.kind == FrameKind::Module && first.import_at_end {
                 let path = first.path.clone();
+                if first.export_at_end {
+                    exported = Some(path.clone());
+                }
                 match self.frames.last_mut() {
                     Some(f) => f.opened.push(OpenDirective::all(path)),
                     None => self.file_opened.push(OpenDirective::all(path)),
@@ -159,6 +165,9 @@ impl<'a> Extractor<'a> {
             }
         }
         self.refresh_scope();
+        if let Some(path) = exported {
+            self.export(path);
+        }
     }
 }
 

@@ -23,7 +23,7 @@ mod resolve;
 
 use std::collections::HashSet;
 
-pub use resolve::resolve;
+pub use resolve::{resolve, resolve_module_in};
 
 use commands::{find_top_assign, module_names, prefixes};
 use declarations::Declares;
@@ -31,7 +31,7 @@ use lexer::{Lexed, Sentence, TokenKind};
 use references::Scan;
 
 use super::text::LineIndex;
-use super::{FileExtraction, OpenDirective, RawImport, Scope};
+use super::{FileExtraction, ModuleExport, OpenDirective, RawImport, Scope};
 use crate::library::{DeclKind, Diagnostic, Hypothesis, ProofEnding, Severity, Visibility};
 
 /// Reads one Coq file whose logical module path is `module`.
@@ -149,6 +149,8 @@ struct Frame {
     locals: Vec<String>,
     /// `Module Import M` / `Module Export M`: opened in the enclosing scope at its `End`.
     import_at_end: bool,
+    /// `Module Export M`: importing the enclosing module (or file) imports `M` too.
+    export_at_end: bool,
 }
 
 /// A declaration (or several, for a mutual block) waiting for its proof.
@@ -251,6 +253,21 @@ impl<'a> Extractor<'a> {
             self.out.scopes.push(scope);
             self.scope = self.out.scopes.len() - 1;
         }
+    }
+
+    /// Records that importing the innermost module (or the file, at its top level) imports
+    /// `target` too. An `Export` inside a section does not outlive it and is not recorded.
+    fn export(&mut self, target: String) {
+        let module = match self.frames.last() {
+            Some(f) if f.kind == FrameKind::Module => f.path.clone(),
+            Some(_) => return,
+            None => self.module.to_string(),
+        };
+        self.out.module_exports.push(ModuleExport {
+            module,
+            target,
+            scope: self.scope,
+        });
     }
 
     fn open(&mut self, directive: OpenDirective) {
@@ -440,7 +457,11 @@ impl<'a> Extractor<'a> {
                 return;
             }
             "Import" | "Export" => {
+                let export = word(k) == "Export";
                 for name in module_names(tokens, text, k + 1) {
+                    if export {
+                        self.export(name.clone());
+                    }
                     self.open(OpenDirective::all(name));
                 }
                 return;
@@ -459,6 +480,7 @@ impl<'a> Extractor<'a> {
                     variables: Vec::new(),
                     locals: Vec::new(),
                     import_at_end: false,
+                    export_at_end: false,
                 });
                 return;
             }

@@ -7,7 +7,8 @@
 //!
 //! 1. a module enclosing the reference (innermost first): `x` inside `M`, `M.x` in `L`;
 //! 2. a module opened by `Import`, `Require Import` or `Export` (later openings shadow
-//!    earlier ones; `Local` declarations of other files are never opened);
+//!    earlier ones; `Local` declarations of other files are never opened), together with
+//!    what that module's own `Export`s open, opened just before it;
 //! 3. a proper prefix of the file module `L`: `s` names the library itself, as in
 //!    `PeanoNat.Nat.add_comm` or `List.map` after a bare `Require` (coqc's rule that a
 //!    library is reachable by any suffix of its logical path).
@@ -43,15 +44,46 @@ fn prefix_of<'a>(full: &'a str, written: &str) -> Option<&'a str> {
 }
 
 /// The opened modules at a scope, in the order of opening: the file's imports with what
-/// they re-export, then the `Import`s written in the scope, resolved to module paths.
+/// they re-export, then the `Import`s written in the scope, resolved to module paths. Each
+/// module comes after the modules its `Export`s open (transitively), so that its own names
+/// shadow theirs, as when its `Export` lines come first.
 fn opened_modules(scope: &Scope, env: &ResolveEnv) -> Vec<String> {
-    let mut opened: Vec<String> = env.opened_modules().map(str::to_string).collect();
+    let mut opened: Vec<String> = Vec::new();
+    for m in env.opened_modules() {
+        push_with_exports(m, env, &mut opened, &mut Vec::new());
+    }
     for directive in &scope.opened {
         if let Some(path) = resolve_module(&directive.target, scope, &opened, env) {
-            opened.push(path);
+            push_with_exports(&path, env, &mut opened, &mut Vec::new());
         }
     }
     opened
+}
+
+/// Pushes what `path`'s `Export`s open, then `path`; `stack` holds the modules being
+/// expanded, so a cycle of exports ends.
+fn push_with_exports<'e>(
+    path: &'e str,
+    env: &'e ResolveEnv,
+    opened: &mut Vec<String>,
+    stack: &mut Vec<&'e str>,
+) {
+    if stack.contains(&path) {
+        return;
+    }
+    stack.push(path);
+    for e in env.exports_of(path) {
+        push_with_exports(e, env, opened, stack);
+    }
+    stack.pop();
+    opened.push(path.to_string());
+}
+
+/// The module a written module name means in `scope` (for an `Export` inside a module,
+/// resolved once for the whole library).
+pub fn resolve_module_in(written: &str, scope: &Scope, env: &ResolveEnv) -> Option<String> {
+    let opened = opened_modules(scope, env);
+    resolve_module(written, scope, &opened, env)
 }
 
 /// The module a written module name (`Nat`, `ListNotations`, `Coq.Lists.List`) names.
@@ -77,6 +109,13 @@ fn resolve_module(
             continue;
         };
         match best {
+            // A library and a module inside it, both reachable by the written name: coqc
+            // registers the module after its library, so the module shadows it (`bi.bi`
+            // is iris's module `iris.bi.bi.bi`, not the library `iris.bi.bi`).
+            Some((b, p)) if b == reach && inside(path, p) => {
+                best = Some((reach, path));
+            }
+            Some((b, p)) if b == reach && inside(p, path) => {}
             Some((b, p)) if b == reach && p != path => tie = true,
             Some((b, _)) if b >= reach => {}
             _ => {
@@ -89,6 +128,11 @@ fn resolve_module(
         Some((_, path)) if !tie => Some(path.to_string()),
         _ => None,
     }
+}
+
+/// Whether module path `inner` lies inside module path `outer`.
+fn inside(inner: &str, outer: &str) -> bool {
+    inner.len() > outer.len() && inner.starts_with(outer) && inner.as_bytes()[outer.len()] == b'.'
 }
 
 /// Resolves one written name in a Coq scope (see the module documentation for the rules).
