@@ -25,6 +25,7 @@ use std::sync::OnceLock;
 use quarry::extract::{build_library, BuildOptions};
 use quarry::library::{DeclKind, Library, Visibility};
 use support::debian::{coq_stdlib, coqc};
+use support::glob::GlobRef;
 
 fn in_ci() -> bool {
     std::env::var("CI").is_ok_and(|v| v == "true" || v == "1")
@@ -350,13 +351,6 @@ const GLOB_FILES: &[&str] = &[
     "Program/Subset",
 ];
 
-/// One `.glob` reference.
-struct GlobRef {
-    start: u32,
-    target: String,
-    kind: String,
-}
-
 /// Compiles copies of `GLOB_FILES` and reads their `.glob` references, per module name.
 fn glob_references(theories: &Path, coqc: &Path) -> HashMap<String, Vec<GlobRef>> {
     let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("no temporary folder: {e}"));
@@ -420,33 +414,10 @@ fn glob_references(theories: &Path, coqc: &Path) -> HashMap<String, Vec<GlobRef>
                 continue;
             }
         };
-        let mut refs = Vec::new();
-        for line in glob.lines() {
-            let Some(rest) = line.strip_prefix('R') else {
-                continue;
-            };
-            let parts: Vec<&str> = rest.split_whitespace().collect();
-            let [span, lib, path, name, kind] = parts[..] else {
-                continue;
-            };
-            let Some(start) = span.split(':').next().and_then(|s| s.parse().ok()) else {
-                continue;
-            };
-            let lib = match lib.strip_prefix("Copy.") {
-                Some(rest) => format!("Coq.{rest}"),
-                None => lib.to_string(),
-            };
-            let target = if path == "<>" {
-                format!("{lib}.{name}")
-            } else {
-                format!("{lib}.{path}.{name}")
-            };
-            refs.push(GlobRef {
-                start,
-                target,
-                kind: kind.to_string(),
-            });
-        }
+        let refs = support::glob::references(&glob, |lib| match lib.strip_prefix("Copy.") {
+            Some(rest) => format!("Coq.{rest}"),
+            None => lib.to_string(),
+        });
         out.insert(module, refs);
     }
     out

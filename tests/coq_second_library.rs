@@ -217,32 +217,14 @@ fn references(files: &[PathBuf]) -> HashMap<String, Vec<(u32, String)>> {
     for f in files {
         let text = std::fs::read_to_string(f)
             .unwrap_or_else(|e| panic!("cannot read `{}`: {e}", f.display()));
-        let mut module = String::new();
-        for line in text.lines() {
-            if let Some(m) = line.strip_prefix('F') {
-                module = m.trim().to_string();
-                continue;
-            }
-            let Some(rest) = line.strip_prefix('R') else {
-                continue;
-            };
-            let parts: Vec<&str> = rest.split_whitespace().collect();
-            let [span, lib, path, name, kind] = parts[..] else {
-                continue;
-            };
-            let Some(start) = span.split(':').next().and_then(|s| s.parse().ok()) else {
-                continue;
-            };
-            if !names_a_declaration(kind) {
-                continue;
-            }
-            let target = if path == "<>" {
-                format!("{lib}.{name}")
-            } else {
-                format!("{lib}.{path}.{name}")
-            };
-            out.entry(module.clone()).or_default().push((start, target));
-        }
+        let Some(module) = support::glob::module(&text) else {
+            continue;
+        };
+        let refs = support::glob::references(&text, str::to_string)
+            .into_iter()
+            .filter(|r| names_a_declaration(&r.kind))
+            .map(|r| (r.start, r.target));
+        out.entry(module.to_string()).or_default().extend(refs);
     }
     out
 }

@@ -159,6 +159,40 @@ pub struct ModuleExport {
     pub scope: usize,
 }
 
+/// Assembles a library from in-memory files `(module, text)` written in `language`, as
+/// the unit tests of both frontends need it.
+#[cfg(test)]
+pub(crate) fn in_memory_library(
+    language: Language,
+    files: &[(&str, &str)],
+) -> crate::library::Library {
+    use crate::library::{FileId, ReferenceCounts, SourceFile};
+    let extension = match language {
+        Language::Lean => "lean",
+        Language::Coq => "v",
+    };
+    let extracted = files
+        .iter()
+        .enumerate()
+        .map(|(i, (module, text))| resolve::ExtractedFile {
+            file: SourceFile {
+                id: FileId(i as u32),
+                path: format!("{}.{extension}", module.replace('.', "/")),
+                root: 0,
+                language,
+                module: None,
+                content_hash: String::new(),
+                bytes: text.len() as u64,
+                diagnostics: Vec::new(),
+                references: ReferenceCounts::default(),
+            },
+            module_name: module.to_string(),
+            extraction: extract_text(language, module, text),
+        })
+        .collect();
+    resolve::assemble(vec!["demo".into()], extracted)
+}
+
 /// Extracts one file's text written in `language`, whose module is `module`
 /// (for Coq the logical path, e.g. `Coq.Arith.PeanoNat`; for Lean `Ledger.Basic`).
 pub fn extract_text(language: Language, module: &str, text: &str) -> FileExtraction {

@@ -121,6 +121,22 @@ pub struct ResolveEnv<'a> {
 }
 
 impl<'a> ResolveEnv<'a> {
+    /// What file `fi` (its own file module) sees, from the tables `assemble` computed.
+    fn of_file(
+        table: &'a NameTable,
+        fi: usize,
+        visible: &'a [Vec<bool>],
+        opened: &'a [Vec<u32>],
+    ) -> ResolveEnv<'a> {
+        ResolveEnv {
+            table,
+            file: fi as u32,
+            module: fi as u32,
+            visible: &visible[fi],
+            opened: &opened[fi],
+        }
+    }
+
     fn can_see(&self, idx: u32, at: u32) -> bool {
         let site = self.table.sites[idx as usize];
         if site.file == self.file {
@@ -389,13 +405,7 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
         if f.extraction.module_exports.is_empty() {
             continue;
         }
-        let env = ResolveEnv {
-            table: &table,
-            file: fi as u32,
-            module: fi as u32,
-            visible: &visible[fi],
-            opened: &opened[fi],
-        };
+        let env = ResolveEnv::of_file(&table, fi, &visible, &opened);
         let default_scope = Scope::default();
         for e in &f.extraction.module_exports {
             let scope = f.extraction.scopes.get(e.scope).unwrap_or(&default_scope);
@@ -430,13 +440,7 @@ pub fn assemble(roots: Vec<String>, mut files: Vec<ExtractedFile>) -> Library {
         .par_iter()
         .enumerate()
         .map(|(fi, f)| {
-            let env = ResolveEnv {
-                table: &table,
-                file: fi as u32,
-                module: fi as u32,
-                visible: &visible[fi],
-                opened: &opened[fi],
-            };
+            let env = ResolveEnv::of_file(&table, fi, &visible, &opened);
             let language = f.file.language;
             let mut out = FileEdges {
                 proof: Vec::new(),

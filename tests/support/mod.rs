@@ -4,4 +4,5 @@
 #![allow(dead_code)]
 
 pub mod debian;
+pub mod glob;
 pub mod python;

@@ -385,28 +385,7 @@ proptest! {
 
 /// Assembles a library from in-memory Coq files `(module, text)`.
 fn library(files: &[(&str, &str)]) -> crate::library::Library {
-    use crate::extract::resolve::{assemble, ExtractedFile};
-    use crate::library::{FileId, Language, ReferenceCounts, SourceFile};
-    let extracted = files
-        .iter()
-        .enumerate()
-        .map(|(i, (module, text))| ExtractedFile {
-            file: SourceFile {
-                id: FileId(i as u32),
-                path: format!("{}.v", module.replace('.', "/")),
-                root: 0,
-                language: Language::Coq,
-                module: None,
-                content_hash: String::new(),
-                bytes: text.len() as u64,
-                diagnostics: Vec::new(),
-                references: ReferenceCounts::default(),
-            },
-            module_name: module.to_string(),
-            extraction: extract(module, text),
-        })
-        .collect();
-    assemble(vec!["demo".into()], extracted)
+    crate::extract::in_memory_library(crate::library::Language::Coq, files)
 }
 
 /// The names the proof of `from` has edges to.

@@ -7,9 +7,8 @@
 //! `robustness` diagnostics and inputs no one would write.
 
 use super::extract;
-use crate::extract::resolve::{assemble, ExtractedFile};
 use crate::extract::{FileExtraction, RawDeclaration, RawReference};
-use crate::library::{FileId, Language, Library, ReferenceCounts, SourceFile};
+use crate::library::{Language, Library};
 
 mod commands;
 mod declarations;
@@ -42,26 +41,7 @@ fn written(refs: &[RawReference]) -> Vec<&str> {
 
 /// Assembles a library from in-memory Lean files `(module, text)`.
 fn library(files: &[(&str, &str)]) -> Library {
-    let extracted = files
-        .iter()
-        .enumerate()
-        .map(|(i, (module, text))| ExtractedFile {
-            file: SourceFile {
-                id: FileId(i as u32),
-                path: format!("{}.lean", module.replace('.', "/")),
-                root: 0,
-                language: Language::Lean,
-                module: None,
-                content_hash: String::new(),
-                bytes: text.len() as u64,
-                diagnostics: Vec::new(),
-                references: ReferenceCounts::default(),
-            },
-            module_name: module.to_string(),
-            extraction: extract(module, text),
-        })
-        .collect();
-    assemble(vec!["demo".into()], extracted)
+    crate::extract::in_memory_library(Language::Lean, files)
 }
 
 /// The names the proof (or, with `statement`, the statement) of `from` has edges to.
