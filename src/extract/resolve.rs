@@ -8,7 +8,9 @@
 //! can see, and the bookkeeping. Nothing is dropped silently: every reference ends up
 //! resolved, unresolved, ambiguous, or (Lean) dot notation on a local.
 
+use std::cell::RefCell;
 use std::collections::{HashMap, VecDeque};
+use std::rc::Rc;
 
 use rayon::prelude::*;
 
@@ -118,6 +120,9 @@ pub struct ResolveEnv<'a> {
     module: u32,
     visible: &'a [bool],
     opened: &'a [u32],
+    /// Per scope of the file (keyed by its address, stable while the file is resolved):
+    /// the modules it opens, as the frontend computed them for its first reference.
+    opened_by_scope: RefCell<HashMap<usize, Rc<[String]>>>,
 }
 
 impl<'a> ResolveEnv<'a> {
@@ -134,7 +139,22 @@ impl<'a> ResolveEnv<'a> {
             module: fi as u32,
             visible: &visible[fi],
             opened: &opened[fi],
+            opened_by_scope: RefCell::new(HashMap::new()),
         }
+    }
+
+    /// The modules `scope` opens: `compute` runs for the first reference of each scope of
+    /// the file, later references reuse its answer.
+    pub fn opened_in(&self, scope: &Scope, compute: impl FnOnce() -> Vec<String>) -> Rc<[String]> {
+        let key = scope as *const Scope as usize;
+        if let Some(found) = self.opened_by_scope.borrow().get(&key) {
+            return Rc::clone(found);
+        }
+        let opened: Rc<[String]> = compute().into();
+        self.opened_by_scope
+            .borrow_mut()
+            .insert(key, Rc::clone(&opened));
+        opened
     }
 
     fn can_see(&self, idx: u32, at: u32) -> bool {

@@ -142,7 +142,7 @@ pub fn resolve(reference: &RawReference, scope: &Scope, env: &ResolveEnv) -> Res
     if candidates.is_empty() {
         return Resolution::Unresolved;
     }
-    let mut opened: Option<Vec<String>> = None;
+    let mut opened: Option<std::rc::Rc<[String]>> = None;
     let mut best: Option<(Reach, u32)> = None;
     let mut tie = false;
     for c in candidates {
@@ -161,7 +161,7 @@ pub fn resolve(reference: &RawReference, scope: &Scope, env: &ResolveEnv) -> Res
         } else if let Some(o) = (same_file || env.visibility(c) != Visibility::Local)
             .then(|| {
                 opened
-                    .get_or_insert_with(|| opened_modules(scope, env))
+                    .get_or_insert_with(|| env.opened_in(scope, || opened_modules(scope, env)))
                     .iter()
                     .rposition(|n| n == prefix)
             })
