@@ -113,7 +113,8 @@ pub fn neighbour_votes(
 ) -> Vec<VotedPremise> {
     let ok = |id: DeclId| allowed.is_none_or(|f| f.contains(id));
     let weight = |sim: f32| (!sim.is_nan() && sim > 0.0).then(|| sim.powf(params.sharpness));
-    // Room for every vote at once: growing the vector was a tenth of the vote's time.
+    // Room for every vote at once: growing the vector was about a seventh of the vote's
+    // time in the profile of docs/performance.md ("Where a fused ranking's time goes").
     let room = neighbours
         .iter()
         .map(|&(n, _)| graph.proof_uses.degree(n) + 1)
