@@ -48,15 +48,13 @@ fn globs(dir: &Path, out: &mut Vec<PathBuf>) {
 fn defined(glob: &Path) -> Vec<(String, String)> {
     let text = std::fs::read_to_string(glob)
         .unwrap_or_else(|e| panic!("cannot read `{}`: {e}", glob.display()));
-    let mut module = None;
+    let Some(module) = support::glob::module(&text) else {
+        return Vec::new();
+    };
     let mut out = Vec::new();
     for line in text.lines() {
-        if let Some(m) = line.strip_prefix('F') {
-            module = Some(m.trim().to_string());
-            continue;
-        }
         let parts: Vec<&str> = line.split_whitespace().collect();
-        let (Some(module), [kind, _, path, name]) = (&module, parts.as_slice()) else {
+        let [kind, _, path, name] = parts.as_slice() else {
             continue;
         };
         if !DECLARING.contains(kind) {
